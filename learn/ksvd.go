@@ -21,6 +21,7 @@ type KSVDOptions struct {
 	// coding is masked and atom updates fit the known entries only.
 	Known   []bool
 	Workers int
+	Single  bool // float32 correlations in the coding step (see Coder.Single)
 	// Progress, when set, is called after every round.
 	Progress func(RoundStats)
 }
@@ -49,6 +50,7 @@ func KSVD(d0 *Dict, X []float64, m int, opt KSVDOptions) (*Dict, *Codes) {
 	for round := 1; round <= opt.Rounds; round++ {
 		c := NewCoder(d)
 		c.Workers = opt.Workers
+		c.Single = opt.Single
 		if opt.Known != nil {
 			codes = c.CodeMasked(X, opt.Known, m, opt.Eps, opt.EpsEach, opt.MaxAtoms)
 		} else {

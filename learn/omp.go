@@ -276,7 +276,7 @@ func (c *Coder) codeBlock(s *scratch, X []float64, lo, hi int, eps float64, epsE
 // writes the code at s.idx/s.val[off:] and returns its length and the
 // squared residual norm.
 func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int, off int32) (int, float64) {
-	_ = c
+	k := c.D.K
 	alpha := s.alpha
 	copy(alpha, a0)
 	L := s.l
@@ -340,7 +340,7 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 		// α = a0 − G_I·γ; ‖r‖² = ‖x‖² − γᵀ·a0_I.
 		copy(alpha, a0)
 		for t := 0; t < na; t++ {
-			axpy(-g[t], s.rows[t], alpha)
+			blas64.Implementation().Daxpy(k, -g[t], s.rows[t], 1, alpha, 1)
 		}
 		delta := 0.0
 		for t := 0; t < na; t++ {
@@ -358,14 +358,39 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 	return na, res
 }
 
+// argmaxAbs finds the largest |a[j]|; four running maxima keep the
+// comparisons independent of each other.
 func argmaxAbs(a []float64) (int, float64) {
-	best, bi := 0.0, -1
-	for j, v := range a {
-		if v < 0 {
-			v = -v
+	var b0, b1, b2, b3 float64
+	i0, i1, i2, i3 := -1, -1, -1, -1
+	j := 0
+	for ; j+4 <= len(a); j += 4 {
+		if v := math.Abs(a[j]); v > b0 {
+			b0, i0 = v, j
 		}
-		if v > best {
-			best, bi = v, j
+		if v := math.Abs(a[j+1]); v > b1 {
+			b1, i1 = v, j+1
+		}
+		if v := math.Abs(a[j+2]); v > b2 {
+			b2, i2 = v, j+2
+		}
+		if v := math.Abs(a[j+3]); v > b3 {
+			b3, i3 = v, j+3
+		}
+	}
+	for ; j < len(a); j++ {
+		if v := math.Abs(a[j]); v > b0 {
+			b0, i0 = v, j
+		}
+	}
+	// Ties go to the lowest index, as a plain scan would choose.
+	best, bi := b0, i0
+	for _, c := range [...]struct {
+		v float64
+		i int
+	}{{b1, i1}, {b2, i2}, {b3, i3}} {
+		if c.i >= 0 && (c.v > best || (c.v == best && (bi < 0 || c.i < bi))) {
+			best, bi = c.v, c.i
 		}
 	}
 	return bi, best

@@ -111,7 +111,7 @@ func denoisePlane(img *patches.Image, s255 float64, opt Options) (*patches.Image
 	if opt.Rounds > 0 {
 		X, m := trainingSet(img, p, opt.Train, learn.SubSeed(opt.Seed, "train"))
 		d, _ = learn.KSVD(d, X, m, learn.KSVDOptions{
-			Rounds: opt.Rounds, Eps: eps, MaxAtoms: maxAtoms, Workers: opt.Workers,
+			Rounds: opt.Rounds, Eps: eps, MaxAtoms: maxAtoms, Workers: opt.Workers, Single: true,
 			Progress: func(s learn.RoundStats) {
 				if opt.Progress != nil {
 					opt.Progress(Stage{Name: "train", Round: s.Round, Rounds: s.Rounds})
