@@ -65,6 +65,7 @@ func TestSSIMIPOL(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	t.Logf("SSIM %.7f; IPOL imdiff %.7f, scikit-image %.7f", got, ref.SSIMIPOL.IPOL, ref.SSIMIPOL.Skimage)
 	if math.Abs(got-ref.SSIMIPOL.IPOL) > 1e-3 {
 		t.Errorf("SSIM %.6f, IPOL imdiff %.6f", got, ref.SSIMIPOL.IPOL)
 	}

@@ -1,0 +1,334 @@
+package main
+
+import (
+	"fmt"
+	"math"
+	"regexp"
+	"strconv"
+	"strings"
+
+	"github.com/urfave/cli/v2"
+
+	"tessera/restore"
+)
+
+// usageError is a bad command line: exit status 2, nothing processed.
+type usageError struct{ msg string }
+
+func (e *usageError) Error() string { return e.msg }
+
+func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(format, a...)} }
+
+// exitStatus ends the program with code after its messages were printed.
+type exitStatus struct{ code int }
+
+func (e *exitStatus) Error() string { return fmt.Sprintf("exit status %d", e.code) }
+
+// defaultMaxPixels is the decompression-bomb guard: 1e9 pixels is a 31623²
+// frame, beyond which a float copy alone needs 12 GB per colour image.
+const defaultMaxPixels = 1_000_000_000
+
+// outFormats are the values of --format: the lossless formats the encoder
+// writes. pgm and ppm are the same Netpbm writer (P5 for gray, P6 for
+// colour); the output name follows the channels.
+var outFormats = map[string]string{"png": "png", "tiff": "tiff", "tif": "tiff", "pgm": "pgm", "ppm": "pgm", "pnm": "pgm"}
+
+// config is the parsed command line of tessera denoise.
+type config struct {
+	paths  []string
+	out    string
+	outSet bool
+	sigma  float64 // 0: estimate per image
+
+	patch, atoms, rounds, train int
+	bound                       float64
+	setPatch, setAtoms          bool
+	setRounds, setTrain         bool
+	setBound                    bool
+	seed                        uint64
+
+	jobs      int
+	report    string
+	force     bool
+	quiet     bool
+	shard     shard
+	format    string // "", "png", "tiff" or "pgm"
+	maxPixels int64
+}
+
+// options gives the restore options for an image with σ on the 0–255
+// scale: the library's defaults for that σ, with the options given on the
+// command line laid over them.
+func (c *config) options(sigma255 float64) restore.Options {
+	o := restore.Defaults(sigma255)
+	if c.setPatch {
+		o.Patch = c.patch
+	}
+	if c.setAtoms {
+		o.Atoms = c.atoms
+	}
+	if c.setRounds {
+		o.Rounds = c.rounds
+	}
+	if c.setTrain {
+		o.Train = c.train
+	}
+	if c.setBound {
+		o.Bound = c.bound
+	}
+	o.Seed = c.seed
+	return o
+}
+
+// helpDefaults are the defaults shown in --help: the library's settings at
+// σ = 25 on the 0–255 scale.
+var helpDefaults = restore.Defaults(25)
+
+const denoiseDescription = `Removes white Gaussian noise from each image: learns a dictionary of
+patches from the noisy image itself (K-SVD), codes every overlapping patch
+with orthogonal matching pursuit down to the error bound n·(C·σ)², and
+averages the patches back.
+
+PATH is an image file, a folder (walked recursively, sorted by relative
+path; hidden files and folders and files without an image extension are
+skipped and counted) or - for standard input. Formats read: PNG, TIFF,
+JPEG, PGM and PPM, 8 or 16 bits, gray or colour, with or without alpha.
+
+Outputs have the input's name, format and bit depth (--format changes the
+format and the extension); alpha is copied through untouched; samples are
+rounded and clipped. A folder's tree is mirrored under --out. With a single
+file, --out may name the output file, an existing folder, or a new folder
+(a name ending in / or without an image extension); without --out the
+output goes beside the input as NAME.denoised.EXT. --out - writes one image
+to standard output. Outputs are written to a temporary file and renamed,
+so a killed run never leaves a partial file under its final name, and a
+rerun skips the outputs that exist: a stopped batch resumes.
+
+Each image's random choices derive from --seed and its path relative to
+the input folder (its file name for a file named as PATH, "-" for
+standard input), so the same inputs and options give byte-identical
+outputs whatever --jobs and --shard are.
+
+--shard K/N keeps the images at positions K-1, K-1+N, K-1+2N, ... (counted
+from 0) of the sorted list of all images, so N shares cover every image
+exactly once and differ in size by one at most; do not change the inputs
+while the shares run. --shard auto reads a Slurm job array
+(SLURM_ARRAY_TASK_ID, SLURM_ARRAY_TASK_COUNT, SLURM_ARRAY_TASK_MIN,
+SLURM_ARRAY_TASK_STEP) or a Kubernetes Indexed Job (JOB_COMPLETION_INDEX,
+with --shard-count). Give each share its own --report file.
+
+Exit status: 0 when every image was done or skipped, 1 when any failed
+(the others still finish), 2 for a bad command line (nothing is
+processed), 130 or 143 when interrupted by SIGINT or SIGTERM.
+
+` + caution
+
+func denoiseCommand(e *env) *cli.Command {
+	return &cli.Command{
+		Name:            "denoise",
+		Usage:           "remove white Gaussian noise from images, files or whole folders",
+		UsageText:       "tessera denoise [options] PATH...",
+		Description:     denoiseDescription,
+		HideHelpCommand: true,
+		OnUsageError:    onUsageError,
+		Flags: []cli.Flag{
+			&cli.StringFlag{Name: "out", Usage: "write to `DIR|FILE|-`: a folder (input folders are mirrored under it), one output file, or - for standard output"},
+			&cli.StringFlag{Name: "sigma", Usage: "noise standard deviation `N` in the image's own units (0..255 for 8-bit, 0..65535 for 16-bit)" + sigmaHelp()},
+			&cli.IntFlag{Name: "patch", Value: helpDefaults.Patch, Usage: "patch side `N` in pixels, 2..32"},
+			&cli.IntFlag{Name: "atoms", Value: helpDefaults.Atoms, Usage: "`N` dictionary atoms, 1..4096"},
+			&cli.IntFlag{Name: "rounds", Value: helpDefaults.Rounds, Usage: "`N` K-SVD training rounds, 0..1000 (0 codes with the starting DCT dictionary)"},
+			&cli.Float64Flag{Name: "bound", Value: helpDefaults.Bound, Usage: "factor `C` of the coding error bound n·(C·σ)²"},
+			&cli.IntFlag{Name: "train", Value: helpDefaults.Train, Usage: "`N` training patches drawn from each image, at least --atoms"},
+			&cli.Uint64Flag{Name: "seed", Value: helpDefaults.Seed, Usage: "`N` seeds the random choices; each image's seed derives from it and the image's path"},
+			&cli.IntFlag{Name: "jobs", Value: 1, Usage: "process `N` images at once; each gets NumCPU/N threads"},
+			&cli.StringFlag{Name: "report", Usage: "write one JSON line per input to `FILE` (- for standard output); replaced on each run"},
+			&cli.BoolFlag{Name: "force", DisableDefaultText: true, Usage: "redo outputs that already exist (without it a rerun skips them)"},
+			&cli.StringFlag{Name: "shard", Usage: "process share `K/N` of the sorted image list (1 <= K <= N), or auto: take it from a job array"},
+			&cli.StringFlag{Name: "shard-count", Usage: "`N` shares for --shard auto (needed with a Kubernetes Indexed Job)"},
+			&cli.BoolFlag{Name: "quiet", DisableDefaultText: true, Usage: "print failures only: no progress bar, no summary line"},
+			&cli.StringFlag{Name: "format", Usage: "write `png|tiff|pgm` (pgm: P5 .pgm for gray, P6 .ppm for colour); default: the input's format"},
+			&cli.StringFlag{Name: "max-pixels", Value: "1e9", DefaultText: "1e9", Usage: "refuse images of more than `N` pixels, read from the header before decoding (0: no limit)"},
+		},
+		Action: func(cc *cli.Context) error {
+			cfg, err := parseConfig(cc, e)
+			if err != nil {
+				return err
+			}
+			return runBatch(cfg, e)
+		},
+	}
+}
+
+func sigmaHelp() string {
+	if estimateSigma == nil {
+		return "; required"
+	}
+	return "; estimated per image when omitted"
+}
+
+// onUsageError turns a flag parse error into a usage error with a pointer
+// to the help.
+func onUsageError(_ *cli.Context, err error, _ bool) error {
+	return usagef("%s; see tessera denoise --help", flagErrText(err))
+}
+
+var badValue = regexp.MustCompile(`^invalid value (".*") for flag -+([A-Za-z0-9-]+): .*$`)
+
+// flagErrText rewords the flag package's parse errors in the terms of the
+// command line.
+func flagErrText(err error) string {
+	msg := err.Error()
+	if m := badValue.FindStringSubmatch(msg); m != nil {
+		return fmt.Sprintf("--%s %s: not a valid value (a whole number is expected, or a decimal for --bound)", m[2], m[1])
+	}
+	if n, ok := strings.CutPrefix(msg, "flag provided but not defined: "); ok {
+		return "unknown option --" + strings.TrimLeft(n, "-")
+	}
+	if n, ok := strings.CutPrefix(msg, "flag needs an argument: "); ok {
+		return "option --" + strings.TrimLeft(n, "-") + " needs a value"
+	}
+	return msg
+}
+
+func parseConfig(cc *cli.Context, e *env) (*config, error) {
+	c := &config{
+		paths:  cc.Args().Slice(),
+		out:    cc.String("out"),
+		outSet: cc.IsSet("out"),
+		patch:  cc.Int("patch"), atoms: cc.Int("atoms"), rounds: cc.Int("rounds"),
+		train: cc.Int("train"), bound: cc.Float64("bound"),
+		setPatch: cc.IsSet("patch"), setAtoms: cc.IsSet("atoms"), setRounds: cc.IsSet("rounds"),
+		setTrain: cc.IsSet("train"), setBound: cc.IsSet("bound"),
+		seed:   cc.Uint64("seed"),
+		jobs:   cc.Int("jobs"),
+		report: cc.String("report"),
+		force:  cc.Bool("force"),
+		quiet:  cc.Bool("quiet"),
+	}
+	if len(c.paths) == 0 {
+		return nil, usagef("give at least one PATH (an image, a folder, or - for standard input); see tessera denoise --help")
+	}
+	for _, p := range c.paths {
+		if p == "" {
+			return nil, usagef("an empty PATH was given; check the quoting of the command line")
+		}
+	}
+	if c.outSet && c.out == "" {
+		return nil, usagef("--out is empty; give a folder, a file name or -")
+	}
+	if cc.IsSet("sigma") {
+		s, err := parseSigma(cc.String("sigma"))
+		if err != nil {
+			return nil, &usageError{err.Error()}
+		}
+		c.sigma = s
+	} else if estimateSigma == nil {
+		return nil, usagef("--sigma is required: give the noise standard deviation in the image's own units, e.g. --sigma 10 for 8-bit or --sigma 2500 for 16-bit images (this build cannot estimate it)")
+	}
+	if err := c.checkOptions(); err != nil {
+		return nil, err
+	}
+	if c.jobs < 1 || c.jobs > 4096 {
+		return nil, usagef("--jobs %d: must be 1..4096", c.jobs)
+	}
+	mp, err := parseMaxPixels(cc.String("max-pixels"))
+	if err != nil {
+		return nil, &usageError{err.Error()}
+	}
+	c.maxPixels = mp
+	if cc.IsSet("format") {
+		f, ok := outFormats[strings.ToLower(cc.String("format"))]
+		if !ok {
+			return nil, usagef("--format %q: unknown output format; choose png, tiff or pgm", cc.String("format"))
+		}
+		c.format = f
+	}
+	count := 0
+	if cc.IsSet("shard-count") {
+		n, err := parseCount(cc.String("shard-count"))
+		if err != nil || n < 1 || n > maxShards {
+			return nil, usagef("--shard-count %q: must be a whole number 1..%d", cc.String("shard-count"), maxShards)
+		}
+		count = n
+	}
+	switch s := cc.String("shard"); {
+	case !cc.IsSet("shard"):
+		if cc.IsSet("shard-count") {
+			return nil, usagef("--shard-count goes with --shard auto")
+		}
+	case s == "auto":
+		sh, err := autoShard(e.getenv, count)
+		if err != nil {
+			return nil, &usageError{err.Error()}
+		}
+		c.shard = sh
+	default:
+		if cc.IsSet("shard-count") {
+			return nil, usagef("--shard-count goes with --shard auto, not with --shard %s", s)
+		}
+		sh, err := parseShard(s)
+		if err != nil {
+			return nil, &usageError{err.Error()}
+		}
+		c.shard = sh
+	}
+	if c.report == "" && cc.IsSet("report") {
+		return nil, usagef("--report is empty; give a file name or -")
+	}
+	if c.report == "-" && c.out == "-" {
+		return nil, usagef("--report - and --out - both want standard output; give the report a file name")
+	}
+	return c, nil
+}
+
+// checkOptions refuses numeric options that no image could use, so a
+// batch does not fail on every file for the same reason. The ranges are
+// those restore.Denoise checks.
+func (c *config) checkOptions() error {
+	o := c.options(25)
+	switch {
+	case o.Patch < 2 || o.Patch > 32:
+		return usagef("--patch %d: the patch side must be 2..32", o.Patch)
+	case o.Atoms < 1 || o.Atoms > 4096:
+		return usagef("--atoms %d: the dictionary size must be 1..4096", o.Atoms)
+	case o.Rounds < 0 || o.Rounds > 1000:
+		return usagef("--rounds %d: must be 0..1000", o.Rounds)
+	case !(o.Bound > 0) || math.IsInf(o.Bound, 0):
+		return usagef("--bound %g: the bound factor must be a positive number (the published value is 1.15)", o.Bound)
+	case o.Train < 1:
+		return usagef("--train %d: must be at least 1", o.Train)
+	case o.Rounds > 0 && o.Train < o.Atoms:
+		return usagef("--train %d is below --atoms %d: training needs at least one patch per atom; raise --train or lower --atoms", o.Train, o.Atoms)
+	}
+	return nil
+}
+
+// parseSigma reads --sigma: a finite number above zero.
+func parseSigma(s string) (float64, error) {
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil && !errorsIsRange(err) {
+		return 0, fmt.Errorf("--sigma %q: not a number; give the noise standard deviation in the image's own units, e.g. --sigma 10", s)
+	}
+	if math.IsNaN(v) || math.IsInf(v, 0) || err != nil {
+		return 0, fmt.Errorf("--sigma %q: must be a finite number above 0, in the image's own units", s)
+	}
+	if !(v > 0) {
+		return 0, fmt.Errorf("--sigma %q: must be above 0; a noise-free image needs no denoising", s)
+	}
+	return v, nil
+}
+
+func errorsIsRange(err error) bool {
+	ne, ok := err.(*strconv.NumError)
+	return ok && ne.Err == strconv.ErrRange
+}
+
+// parseMaxPixels reads --max-pixels: a whole number of pixels, written
+// plainly or as 1e9; 0 turns the guard off.
+func parseMaxPixels(s string) (int64, error) {
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(v) || v < 0 || v > 1<<62 || v != math.Trunc(v) {
+		return 0, fmt.Errorf("--max-pixels %q: must be a whole number of pixels such as 1e9, or 0 for no limit", s)
+	}
+	return int64(v), nil
+}
