@@ -54,10 +54,14 @@ type Coder struct {
 	pool    sync.Pool
 	sqOnce  sync.Once
 	sq      []float64 // squared atom entries, for masked norms
+	sq32    []float32
 	// Single computes the correlations Dᵀx in float32, at about twice the
 	// rate of the float64 product; coefficients then carry relative errors
 	// near 1e-7 instead of 1e-15. Set it before the first Code.
-	Single  bool
+	Single bool
+	// Lead makes atom 0 the first atom of every code (a constant atom,
+	// say, so that a signal's level is fitted jointly with the rest).
+	Lead    bool
 	atoms32 []float32
 	a32Once sync.Once
 }
@@ -88,12 +92,14 @@ type scratch struct {
 	val   []float64
 	// grow holds the Gram rows of the selected atoms (L×K) for masked
 	// coding, where every signal has its own Gram matrix.
-	grow  []float64
-	rowOf func(t, atom int) []float64
-	mcol  []float64 // N: mask ⊙ atom
-	norm  []float64 // K: restricted atom norms of the current signal
-	mnorm []float64 // blockSize×K squared restricted norms
-	msk   []float64 // blockSize×N mask as 0/1
+	grow   []float64
+	rowOf  func(t, atom int) []float64
+	mcol   []float64 // N: mask ⊙ atom
+	norm   []float64 // K: restricted atom norms of the current signal
+	mnorm  []float64 // blockSize×K squared restricted norms
+	msk    []float64 // blockSize×N weights
+	mcol32 []float32
+	row32  []float32
 }
 
 func (c *Coder) getScratch(maxAtoms int) *scratch {
@@ -285,6 +291,9 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 	na := 0
 	for na < maxAtoms && res > eps {
 		bi, best := argmaxAbs(alpha)
+		if na == 0 && c.Lead {
+			bi, best = 0, math.Abs(alpha[0])
+		}
 		if bi < 0 || best < 1e-12*math.Sqrt(xx) {
 			break // residual orthogonal to every atom
 		}

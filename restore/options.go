@@ -40,6 +40,8 @@ type Options struct {
 	// 0–255 scale: 0 means the published 30/σ.
 	Lambda float64
 	Color  ColorMode
+	// Passes is the number of sparse passes of Inpaint (0: 5).
+	Passes int
 	// Dict, when set, is the starting dictionary (instead of the DCT); with
 	// Rounds = 0 it is used as it is.
 	Dict *learn.Dict
