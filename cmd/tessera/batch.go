@@ -226,7 +226,7 @@ func (b *batch) process(j *job, slot int) (rec *record) {
 		rec.Error = fmt.Sprintf("%s: the image (%d×%d) is smaller than one %d×%d patch; use a smaller patch (--patch)", j.name, img.W, img.H, p, p)
 		return rec
 	}
-	if sigma == 0 {
+	if sigma == 0 && b.cfg.noise != noisePoisson {
 		b.con.set(slot, "estimating σ")
 		per := estimateSigma(img)
 		sum := 0.0
@@ -258,7 +258,7 @@ func (b *batch) process(j *job, slot int) (rec *record) {
 	} else {
 		b.con.set(slot, "coding 0%")
 	}
-	out, res, err := restore.Denoise(img, sigma, opt)
+	out, res, err := b.cfg.denoiseImage(img, sigma, opt, rec)
 	if err != nil {
 		var oe *restore.OptionError
 		if errors.As(err, &oe) {

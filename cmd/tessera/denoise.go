@@ -40,6 +40,10 @@ type config struct {
 	outSet bool
 	sigma  float64 // 0: estimate per image
 
+	noise            string  // noiseGauss or noisePoisson
+	gain, readNoise  float64 // photon model, when set
+	gainSet, readSet bool
+
 	patch, atoms, rounds, train int
 	bound                       float64
 	setPatch, setAtoms          bool
@@ -54,6 +58,8 @@ type config struct {
 	shard     shard
 	format    string // "", "png", "tiff" or "pgm"
 	maxPixels int64
+
+	dictConfig // --dict and --tile (learncmd.go)
 }
 
 // options gives the restore options for an image with σ on the 0–255
@@ -76,6 +82,7 @@ func (c *config) options(sigma255 float64) restore.Options {
 	if c.setBound {
 		o.Bound = c.bound
 	}
+	c.applyDict(&o)
 	o.Seed = c.seed
 	return o
 }
@@ -88,6 +95,12 @@ const denoiseDescription = `Removes white Gaussian noise from each image: learns
 patches from the noisy image itself (K-SVD), codes every overlapping patch
 with orthogonal matching pursuit down to the error bound n·(C·σ)², and
 averages the patches back.
+
+--noise poisson is for photon-limited frames, z = α·Poisson(y/α) + N(0, σ²)
+with gain α (--gain) and read noise σ (--read-noise), both estimated per
+image when omitted (see tessera noise): each sample is stabilised with the
+generalized Anscombe transform, denoised at unit noise, and mapped back with
+the closed-form exact unbiased inverse (Mäkitalo & Foi 2011, 2013).
 
 PATH is an image file, a folder (walked recursively, sorted by relative
 path; hidden files and folders and files without an image extension are
@@ -126,7 +139,7 @@ processed), 130 or 143 when interrupted by SIGINT or SIGTERM.
 func denoiseCommand(e *env) *cli.Command {
 	return &cli.Command{
 		Name:            "denoise",
-		Usage:           "remove white Gaussian noise from images, files or whole folders",
+		Usage:           "remove noise (white Gaussian, or photon-limited) from images, files or whole folders",
 		UsageText:       "tessera denoise [options] PATH...",
 		Description:     denoiseDescription,
 		HideHelpCommand: true,
@@ -134,6 +147,9 @@ func denoiseCommand(e *env) *cli.Command {
 		Flags: []cli.Flag{
 			&cli.StringFlag{Name: "out", Usage: "write to `DIR|FILE|-`: a folder (input folders are mirrored under it), one output file, or - for standard output"},
 			&cli.StringFlag{Name: "sigma", Usage: "noise standard deviation `N` in the image's own units (0..255 for 8-bit, 0..65535 for 16-bit)" + sigmaHelp()},
+			&cli.StringFlag{Name: "noise", Value: noiseGauss, Usage: "noise model `gauss|poisson`: white Gaussian, or photon-limited α·Poisson(y/α) + N(0, σ²)"},
+			&cli.StringFlag{Name: "gain", Usage: "photon gain `A` (α) in image units per photon (--noise poisson); estimated per image when omitted"},
+			&cli.StringFlag{Name: "read-noise", Usage: "read noise `S` (σ) in the image's own units (--noise poisson); estimated per image when omitted"},
 			&cli.IntFlag{Name: "patch", Value: helpDefaults.Patch, Usage: "patch side `N` in pixels, 2..32"},
 			&cli.IntFlag{Name: "atoms", Value: helpDefaults.Atoms, Usage: "`N` dictionary atoms, 1..4096"},
 			&cli.IntFlag{Name: "rounds", Value: helpDefaults.Rounds, Usage: "`N` K-SVD training rounds, 0..1000 (0 codes with the starting DCT dictionary)"},
@@ -148,6 +164,7 @@ func denoiseCommand(e *env) *cli.Command {
 			&cli.BoolFlag{Name: "quiet", DisableDefaultText: true, Usage: "print failures only: no progress bar, no summary line"},
 			&cli.StringFlag{Name: "format", Usage: "write `png|tiff|pgm` (pgm: P5 .pgm for gray, P6 .ppm for colour); default: the input's format"},
 			&cli.StringFlag{Name: "max-pixels", Value: "1e9", DefaultText: "1e9", Usage: "refuse images of more than `N` pixels, read from the header before decoding (0: no limit)"},
+			dictFlag, tileFlag,
 		},
 		Action: func(cc *cli.Context) error {
 			cfg, err := parseConfig(cc, e)
@@ -216,14 +233,20 @@ func parseConfig(cc *cli.Context, e *env) (*config, error) {
 	if c.outSet && c.out == "" {
 		return nil, usagef("--out is empty; give a folder, a file name or -")
 	}
+	if err := c.parseNoise(cc); err != nil {
+		return nil, err
+	}
 	if cc.IsSet("sigma") {
 		s, err := parseSigma(cc.String("sigma"))
 		if err != nil {
 			return nil, &usageError{err.Error()}
 		}
 		c.sigma = s
-	} else if estimateSigma == nil {
+	} else if estimateSigma == nil && c.noise != noisePoisson {
 		return nil, usagef("--sigma is required: give the noise standard deviation in the image's own units, e.g. --sigma 10 for 8-bit or --sigma 2500 for 16-bit images (this build cannot estimate it)")
+	}
+	if err := c.loadDict(cc); err != nil {
+		return nil, err
 	}
 	if err := c.checkOptions(); err != nil {
 		return nil, err

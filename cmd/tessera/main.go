@@ -48,7 +48,7 @@ func newApp(e *env) *cli.App {
 			return cli.ShowAppHelp(cc)
 		},
 		ExitErrHandler: func(*cli.Context, error) {}, // run picks the exit status
-		Commands:       []*cli.Command{denoiseCommand(e)},
+		Commands:       []*cli.Command{denoiseCommand(e), scoreCommand(e), benchCommand(e), learnCommand(e), atomsCommand(e), noiseCommand(e)},
 	}
 }
 

@@ -27,14 +27,23 @@ type record struct {
 	Sigma          *float64  `json:"sigma"`
 	SigmaEstimated bool      `json:"sigma_estimated"`
 	SigmaChannels  []float64 `json:"sigma_channels,omitempty"`
-	Width          *int      `json:"width"`
-	Height         *int      `json:"height"`
-	Channels       *int      `json:"channels"`
-	BitDepth       *int      `json:"bit_depth"`
-	Alpha          *bool     `json:"alpha"`
-	Format         string    `json:"format"` // format written, "" if none
-	MeanAtoms      *float64  `json:"mean_atoms"`
-	Seconds        float64   `json:"seconds"`
+	// With --noise poisson (sigma is then null): the photon model's gain α
+	// and read noise σ in the image's units, and whether each was
+	// estimated; the per-channel fits when estimated.
+	Gain               *float64  `json:"gain,omitempty"`
+	GainEstimated      *bool     `json:"gain_estimated,omitempty"`
+	GainChannels       []float64 `json:"gain_channels,omitempty"`
+	ReadNoise          *float64  `json:"read_noise,omitempty"`
+	ReadNoiseEstimated *bool     `json:"read_noise_estimated,omitempty"`
+	ReadNoiseChannels  []float64 `json:"read_noise_channels,omitempty"`
+	Width              *int      `json:"width"`
+	Height             *int      `json:"height"`
+	Channels           *int      `json:"channels"`
+	BitDepth           *int      `json:"bit_depth"`
+	Alpha              *bool     `json:"alpha"`
+	Format             string    `json:"format"` // format written, "" if none
+	MeanAtoms          *float64  `json:"mean_atoms"`
+	Seconds            float64   `json:"seconds"`
 }
 
 func ptr[T any](v T) *T { return &v }

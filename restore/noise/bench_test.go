@@ -51,3 +51,17 @@ func BenchmarkEstimatePoisson(b *testing.B) {
 		EstimatePoisson(img, 0)
 	}
 }
+
+// BenchmarkEstimatePoissonClipped: the same scene darkened so that a
+// quarter of it is clipped at 0, which brings in the censored fit.
+func BenchmarkEstimatePoissonClipped(b *testing.B) {
+	img := benchImage()
+	for i, v := range img.Pix {
+		img.Pix[i] = max(0, v-70)
+	}
+	img.Quantize()
+	b.ResetTimer()
+	for b.Loop() {
+		EstimatePoisson(img, 0)
+	}
+}

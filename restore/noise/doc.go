@@ -5,7 +5,11 @@
 //   - PCA (the default): X. Liu, M. Tanaka, M. Okutomi, "Single-image noise
 //     level estimation for blind denoising", IEEE Trans. Image Processing
 //     22(12), 2013 — the smallest eigenvalue of the covariance of
-//     weak-texture patches, the selection iterated with the estimate.
+//     weak-texture patches, the selection iterated with the estimate,
+//     divided by the lower edge 1−√(n/k) of the Marchenko–Pastur law for
+//     k patches of n pixels (V. A. Marchenko, L. A. Pastur, "Distribution
+//     of eigenvalues for some sets of random matrices", Math. USSR-Sbornik
+//     1(4), 1967).
 //   - Wavelet: D. L. Donoho, I. M. Johnstone, "Ideal spatial adaptation by
 //     wavelet shrinkage", Biometrika 81(3), 1994 — median(|d|)/0.6745 over
 //     the finest diagonal db2 detail band (I. Daubechies, "Orthonormal bases
@@ -27,5 +31,8 @@
 //   - EstimatePoisson: a simplified form of A. Foi, M. Trimeche,
 //     V. Katkovnik, K. Egiazarian, "Practical Poissonian-Gaussian noise
 //     modeling and fitting for single-image raw-data", IEEE Trans. Image
-//     Processing 17(10), 2008 (what differs is listed at the function).
+//     Processing 17(10), 2008 (what differs is listed at the function),
+//     with its model of clipped data fitted by the simplex search of
+//     J. A. Nelder, R. Mead, "A simplex method for function minimization",
+//     Computer Journal 7(4), 1965.
 package noise

@@ -20,6 +20,8 @@ const (
 	pcaTarget  = 60000
 	pcaBatch   = 1024
 	pcaMaxIter = 20
+	// pcaMinPatches weak-texture patches at least, else Wavelet.
+	pcaMinPatches = 8 * pcaDim
 	// pcaPoolMargin: the pool holds patches up to this factor above the
 	// threshold, so that a rising estimate (up to +20 %) needs no new pool.
 	pcaPoolMargin = 1.44
@@ -53,10 +55,16 @@ const pcaConfidence = 1 - 1e-6
 // What differs from the paper, for speed: the iteration starts from the
 // Wavelet estimate (not from all patches), and when many patches are weak
 // texture they are taken on a grid whose step keeps about 60 000 of them
-// (a coarser grid first, until the estimate settles to 1 %). With fewer
-// patches the smallest eigenvalue is biased low (by about 2 % at σ = 50 on
-// 768×512 images). Images with fewer than 196 patch positions fall back to
-// Wavelet. PCA panics if c is out of range.
+// (a coarser grid first, until the estimate settles to 1 %).
+//
+// The smallest eigenvalue of the covariance of k patches of pure noise
+// falls near the lower edge σ²(1−√(n/k))² of the Marchenko–Pastur law
+// (V. A. Marchenko, L. A. Pastur, "Distribution of eigenvalues for some
+// sets of random matrices", Math. USSR-Sbornik 1(4), 1967), 17 % below σ
+// at k = 36n (a 48×48 frame); the estimate is divided by 1−√(n/k). With
+// fewer than 8n = 392 weak-texture patches (small or densely textured
+// frames) the edge is too far and too uncertain, and PCA returns the
+// Wavelet estimate instead. PCA panics if c is out of range.
 func PCA(img *patches.Image, c int) float64 {
 	checkChannel(img, c)
 	return pcaEstimate(img, c)
@@ -70,7 +78,7 @@ type texPatch struct {
 func pcaEstimate(img *patches.Image, c int) float64 {
 	const p, n = pcaPatch, pcaDim
 	w, h := img.W, img.H
-	if w < p || h < p || (w-p+1)*(h-p+1) < 4*n {
+	if w < p || h < p || (w-p+1)*(h-p+1) < pcaMinPatches {
 		return Wavelet(img, c)
 	}
 	plane := img.Plane(c)
@@ -81,7 +89,8 @@ func pcaEstimate(img *patches.Image, c int) float64 {
 	}
 	mean /= float64(len(plane))
 
-	sigma := Wavelet(img, c) // mostly an overestimate in textured images
+	wav := Wavelet(img, c)
+	sigma := wav // mostly an overestimate in textured images
 	step, rebuilds := 0, 0
 	var pool []texPatch
 	var bound float64
@@ -100,15 +109,18 @@ func pcaEstimate(img *patches.Image, c int) float64 {
 			}
 			step = want
 			bound = tau * pcaPoolMargin
-			if t := tex.kth(step, 4*n); t > bound {
-				bound = t
-			}
 			pool = tex.pool(step, bound)
 			acc = newCovAcc(plane, w, mean)
 		}
-		// At least 4n patches, the least textured ones.
-		if tex.count(pool, tau) < 4*n {
-			tau = tex.kth(step, 4*n)
+		if tex.count(pool, tau) < pcaMinPatches {
+			// A coarse grid may lack patches the full one has.
+			if step > 1 && tex.countAll(tau) >= pcaMinPatches {
+				step, bound = 1, tau*pcaPoolMargin
+				pool = tex.pool(step, bound)
+				acc = newCovAcc(plane, w, mean)
+			} else {
+				return wav
+			}
 		}
 		acc.moveTo(pool, tau)
 		s := acc.sigma()
@@ -174,13 +186,7 @@ func newTextureMap(plane []float32, w, h int) *textureMap {
 
 // step is the grid step that keeps about target of the patches with ξ ≤ tau.
 func (t *textureMap) step(tau float64, target int) int {
-	count := 0
-	for _, v := range t.xi {
-		if v <= tau {
-			count++
-		}
-	}
-	return max(1, int(math.Round(math.Sqrt(float64(count)/float64(target)))))
+	return max(1, int(math.Round(math.Sqrt(float64(t.countAll(tau))/float64(target)))))
 }
 
 // pool returns the grid patches with ξ ≤ bound.
@@ -197,6 +203,17 @@ func (t *textureMap) pool(step int, bound float64) []texPatch {
 	return out
 }
 
+// countAll counts the patches with ξ ≤ tau at every position.
+func (t *textureMap) countAll(tau float64) int {
+	k := 0
+	for _, v := range t.xi {
+		if v <= tau {
+			k++
+		}
+	}
+	return k
+}
+
 func (t *textureMap) count(pool []texPatch, tau float64) int {
 	k := 0
 	for _, q := range pool {
@@ -205,19 +222,6 @@ func (t *textureMap) count(pool []texPatch, tau float64) int {
 		}
 	}
 	return k
-}
-
-// kth is the k-th smallest ξ (k from 1) on the grid, or the largest if the
-// grid holds fewer.
-func (t *textureMap) kth(step, k int) float64 {
-	var v []float64
-	for y := 0; y < t.ny; y += step {
-		row := t.xi[y*t.nx : (y+1)*t.nx]
-		for x := 0; x < t.nx; x += step {
-			v = append(v, row[x])
-		}
-	}
-	return selectKth(v, min(k, len(v))-1)
 }
 
 // covAcc accumulates the covariance of a changing set of patches. Each
@@ -347,5 +351,6 @@ func (a *covAcc) sigma() float64 {
 		return 0
 	}
 	a.vals = a.eig.Values(a.vals)
-	return math.Sqrt(math.Max(0, slices.Min(a.vals)))
+	// Undo the Marchenko–Pastur edge: √λmin ≈ σ(1−√(n/k)).
+	return math.Sqrt(math.Max(0, slices.Min(a.vals))) / (1 - math.Sqrt(n/k))
 }
