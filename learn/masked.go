@@ -93,7 +93,7 @@ func (c *Coder) codeBlockMasked(s *scratch, X, W []float64, lo, hi int, eps floa
 		impl.Dgemm(blas.NoTrans, blas.Trans, nr, k, n, 1, s.xs[:nr*n], n, c.D.Atoms, n, 0, s.corr[:nr*k], k)
 		impl.Dgemm(blas.NoTrans, blas.Trans, nr, k, n, 1, s.msk[:nr*n], n, c.sq, n, 0, s.mnorm[:nr*k], k)
 	} else if nr > 0 {
-		c.correlate(s, nr)
+		c.correlate(s, nr, true)
 		gemm32(s, s.msk[:nr*n], c.sq32, s.mnorm[:nr*k], nr, n, k)
 	}
 	var ms []float64

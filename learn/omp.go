@@ -63,6 +63,7 @@ type Coder struct {
 	// say, so that a signal's level is fitted jointly with the rest).
 	Lead    bool
 	atoms32 []float32
+	g32     []float32 // G in float32, for the Single path
 	a32Once sync.Once
 }
 
@@ -88,6 +89,8 @@ type scratch struct {
 	gamma []float64 // L
 	sel   []int     // L selected atoms
 	rows  [][]float64
+	v64   vecs[float64]
+	v32   vecs[float32]
 	idx   []int32
 	val   []float64
 	// grow holds the Gram rows of the selected atoms (L×K) for masked
@@ -122,6 +125,18 @@ func (c *Coder) getScratch(maxAtoms int) *scratch {
 		}
 	}
 	s.rowOf = func(_, atom int) []float64 { return c.G[atom*k : (atom+1)*k] }
+	s.v64.rows = s.rows
+	s.v64.axpy = func(a float64, x, y []float64) { blas64.Implementation().Daxpy(len(x), a, x, 1, y, 1) }
+	if c.Single && s.v32.alpha == nil {
+		s.v32 = vecs[float32]{
+			alpha: make([]float32, k),
+			rows:  make([][]float32, len(s.sel)),
+			rowOf: func(_, atom int) []float32 { return c.g32[atom*k : (atom+1)*k] },
+			axpy: func(a float64, x, y []float32) {
+				blas32.Implementation().Saxpy(len(x), float32(a), x, 1, y, 1)
+			},
+		}
+	}
 	return s
 }
 
@@ -149,6 +164,10 @@ func (c *Coder) run(m, maxAtoms int, code blockFunc) *Codes {
 			c.atoms32 = make([]float32, len(c.D.Atoms))
 			for i, v := range c.D.Atoms {
 				c.atoms32[i] = float32(v)
+			}
+			c.g32 = make([]float32, len(c.G))
+			for i, v := range c.G {
+				c.g32[i] = float32(v)
 			}
 		})
 	}
@@ -215,7 +234,7 @@ func (c *Coder) run(m, maxAtoms int, code blockFunc) *Codes {
 }
 
 // correlate fills s.corr[:nr×K] with the products of s.xs and the atoms.
-func (c *Coder) correlate(s *scratch, nr int) {
+func (c *Coder) correlate(s *scratch, nr int, to64 bool) {
 	if nr == 0 {
 		return
 	}
@@ -234,8 +253,10 @@ func (c *Coder) correlate(s *scratch, nr int) {
 	}
 	blas32.Implementation().Sgemm(blas.NoTrans, blas.Trans, nr, k, n,
 		1, s.xs32[:nr*n], n, c.atoms32, n, 0, s.cr32[:nr*k], k)
-	for i, v := range s.cr32[:nr*k] {
-		s.corr[i] = float64(v)
+	if to64 {
+		for i, v := range s.cr32[:nr*k] {
+			s.corr[i] = float64(v)
+		}
 	}
 }
 
@@ -258,7 +279,7 @@ func (c *Coder) codeBlock(s *scratch, X []float64, lo, hi int, eps float64, epsE
 			nr++
 		}
 	}
-	c.correlate(s, nr)
+	c.correlate(s, nr, false)
 	used := int32(0)
 	r := 0
 	for i := lo; i < hi; i++ {
@@ -268,7 +289,13 @@ func (c *Coder) codeBlock(s *scratch, X []float64, lo, hi int, eps float64, epsE
 			if epsEach != nil {
 				e = epsEach[i]
 			}
-			na, res := c.codeOne(s, s.corr[r*k:(r+1)*k], errs[i], e, maxAtoms, used)
+			var na int
+			var res float64
+			if c.Single {
+				na, res = batchOMP(&s.v32, s, c.Lead, s.cr32[r*k:(r+1)*k], errs[i], e, maxAtoms, used)
+			} else {
+				na, res = c.codeOne(s, s.corr[r*k:(r+1)*k], errs[i], e, maxAtoms, used)
+			}
 			errs[i] = res
 			used += int32(na)
 			r++
@@ -282,8 +309,25 @@ func (c *Coder) codeBlock(s *scratch, X []float64, lo, hi int, eps float64, epsE
 // writes the code at s.idx/s.val[off:] and returns its length and the
 // squared residual norm.
 func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int, off int32) (int, float64) {
-	k := c.D.K
-	alpha := s.alpha
+	s.v64.alpha = s.alpha
+	s.v64.rowOf = s.rowOf
+	return batchOMP(&s.v64, s, c.Lead, a0, xx, eps, maxAtoms, off)
+}
+
+// real is the element type of the correlation side of Batch-OMP; the
+// Cholesky factor and the coefficients are always float64.
+type real interface{ ~float32 | ~float64 }
+
+// vecs holds one element type's per-signal vectors.
+type vecs[T real] struct {
+	alpha []T
+	rows  [][]T
+	rowOf func(t, atom int) []T
+	axpy  func(a float64, x, y []T)
+}
+
+func batchOMP[T real](v *vecs[T], s *scratch, lead bool, a0 []T, xx, eps float64, maxAtoms int, off int32) (int, float64) {
+	alpha := v.alpha
 	copy(alpha, a0)
 	L := s.l
 	ld := maxAtoms
@@ -291,8 +335,8 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 	na := 0
 	for na < maxAtoms && res > eps {
 		bi, best := argmaxAbs(alpha)
-		if na == 0 && c.Lead {
-			bi, best = 0, math.Abs(alpha[0])
+		if na == 0 && lead {
+			bi, best = 0, math.Abs(float64(alpha[0]))
 		}
 		if bi < 0 || best < 1e-12*math.Sqrt(xx) {
 			break // residual orthogonal to every atom
@@ -310,12 +354,12 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 			// w = L⁻¹·G[I, k]; new row [wᵀ, √(1 − wᵀw)].
 			w := s.w[:na]
 			for t := 0; t < na; t++ {
-				v := s.rows[t][bi]
+				g := float64(v.rows[t][bi])
 				row := L[t*ld : t*ld+t]
 				for u, lv := range row {
-					v -= lv * w[u]
+					g -= lv * w[u]
 				}
-				w[t] = v / L[t*ld+t]
+				w[t] = g / L[t*ld+t]
 			}
 			d := 1 - dot(w, w)
 			if d <= 1e-10 {
@@ -327,33 +371,33 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 			L[0] = 1
 		}
 		s.sel[na] = bi
-		s.rows[na] = s.rowOf(na, bi)
+		v.rows[na] = v.rowOf(na, bi)
 		na++
 		// γ = (L·Lᵀ)⁻¹·a0_I by two triangular solves.
 		g := s.gamma[:na]
 		for t := 0; t < na; t++ {
-			v := a0[s.sel[t]]
+			x := float64(a0[s.sel[t]])
 			row := L[t*ld : t*ld+t]
 			for u, lv := range row {
-				v -= lv * g[u]
+				x -= lv * g[u]
 			}
-			g[t] = v / L[t*ld+t]
+			g[t] = x / L[t*ld+t]
 		}
 		for t := na - 1; t >= 0; t-- {
-			v := g[t]
+			x := g[t]
 			for u := t + 1; u < na; u++ {
-				v -= L[u*ld+t] * g[u]
+				x -= L[u*ld+t] * g[u]
 			}
-			g[t] = v / L[t*ld+t]
+			g[t] = x / L[t*ld+t]
 		}
 		// α = a0 − G_I·γ; ‖r‖² = ‖x‖² − γᵀ·a0_I.
 		copy(alpha, a0)
 		for t := 0; t < na; t++ {
-			blas64.Implementation().Daxpy(k, -g[t], s.rows[t], 1, alpha, 1)
+			v.axpy(-g[t], v.rows[t], alpha)
 		}
 		delta := 0.0
 		for t := 0; t < na; t++ {
-			delta += g[t] * a0[s.sel[t]]
+			delta += g[t] * float64(a0[s.sel[t]])
 		}
 		res = xx - delta
 		if res < 0 {
@@ -369,26 +413,26 @@ func (c *Coder) codeOne(s *scratch, a0 []float64, xx, eps float64, maxAtoms int,
 
 // argmaxAbs finds the largest |a[j]|; four running maxima keep the
 // comparisons independent of each other.
-func argmaxAbs(a []float64) (int, float64) {
+func argmaxAbs[T real](a []T) (int, float64) {
 	var b0, b1, b2, b3 float64
 	i0, i1, i2, i3 := -1, -1, -1, -1
 	j := 0
 	for ; j+4 <= len(a); j += 4 {
-		if v := math.Abs(a[j]); v > b0 {
+		if v := math.Abs(float64(a[j])); v > b0 {
 			b0, i0 = v, j
 		}
-		if v := math.Abs(a[j+1]); v > b1 {
+		if v := math.Abs(float64(a[j+1])); v > b1 {
 			b1, i1 = v, j+1
 		}
-		if v := math.Abs(a[j+2]); v > b2 {
+		if v := math.Abs(float64(a[j+2])); v > b2 {
 			b2, i2 = v, j+2
 		}
-		if v := math.Abs(a[j+3]); v > b3 {
+		if v := math.Abs(float64(a[j+3])); v > b3 {
 			b3, i3 = v, j+3
 		}
 	}
 	for ; j < len(a); j++ {
-		if v := math.Abs(a[j]); v > b0 {
+		if v := math.Abs(float64(a[j])); v > b0 {
 			b0, i0 = v, j
 		}
 	}

@@ -135,3 +135,38 @@ func TestOMPSkipsSignalsInsideBound(t *testing.T) {
 		t.Errorf("constant signal: %d atoms, first %d", codes.Atoms(1), codes.Idx[codes.Start[1]])
 	}
 }
+
+// The float32 correlation path must code like the float64 one: the same
+// atoms for nearly every signal and coefficients within float32 rounding.
+func TestOMPSingleMatchesDouble(t *testing.T) {
+	d := OvercompleteDCT(8, 16, 1)
+	r := NewRand(9)
+	m := 2000
+	X := make([]float64, m*64)
+	for i := 0; i < m; i++ {
+		a, b := r.NormFloat64()*30, r.NormFloat64()*30
+		for j := 0; j < 64; j++ {
+			X[i*64+j] = a*float64(j%8) + b*float64(j/8) + 10*r.NormFloat64()
+		}
+	}
+	eps := 64 * 11.5 * 11.5
+	ref := NewCoder(d).Code(X, m, eps, nil, 32)
+	c := NewCoder(d)
+	c.Single = true
+	got := c.Code(X, m, eps, nil, 32)
+	same := 0
+	for i := 0; i < m; i++ {
+		if equalInts(support(ref, i), support(got, i)) {
+			same++
+			for p := ref.Start[i]; p < ref.Start[i+1]; p++ {
+				q := got.Start[i] + (p - ref.Start[i])
+				if math.Abs(ref.Val[p]-got.Val[q]) > 1e-4*(1+math.Abs(ref.Val[p])) {
+					t.Fatalf("signal %d: coefficient %g vs %g", i, got.Val[q], ref.Val[p])
+				}
+			}
+		}
+	}
+	if same < m*99/100 {
+		t.Errorf("only %d of %d signals got the same atoms", same, m)
+	}
+}

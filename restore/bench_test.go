@@ -15,7 +15,7 @@ import (
 //
 // TESSERA_BENCH_SIGMAS (default "15,25,50"), TESSERA_BENCH_LIMIT (images),
 // TESSERA_BENCH_COLOR=1 (RGB instead of gray) and TESSERA_BENCH_TRAIN /
-// TESSERA_BENCH_ROUNDS (option overrides) narrow or vary a run.
+// TESSERA_BENCH_ROUNDS / TESSERA_BENCH_STRIDE (option overrides) narrow or vary a run.
 func BenchmarkKodakProtocol(b *testing.B) {
 	sigmas := []float64{15, 25, 50}
 	if s := os.Getenv("TESSERA_BENCH_SIGMAS"); s != "" {
@@ -51,6 +51,9 @@ func BenchmarkKodakProtocol(b *testing.B) {
 			}
 			if v := os.Getenv("TESSERA_BENCH_ROUNDS"); v != "" {
 				opt.Rounds, _ = strconv.Atoi(v)
+			}
+			if v := os.Getenv("TESSERA_BENCH_STRIDE"); v != "" {
+				opt.Stride, _ = strconv.Atoi(v)
 			}
 			if os.Getenv("TESSERA_BENCH_SEPARATE") == "1" {
 				opt.Color = ColorSeparate
