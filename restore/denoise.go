@@ -18,9 +18,12 @@ func Defaults(sigma255 float64) Options {
 		Atoms:  256,
 		Rounds: 10,
 		Bound:  1.15,
-		Train:  20000,
+		Train:  40000,
 		Stride: 1,
 		Seed:   1,
+		// Measured on Kodak at σ = 25 (3 images): per-channel opponent
+		// coding 31.39 dB in 4.9 s/image, joint RGB patches 29.61 dB in 19.7 s.
+		Color: ColorSeparate,
 	}
 }
 
