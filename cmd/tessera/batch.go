@@ -16,8 +16,11 @@ import (
 	"syscall"
 	"time"
 
+	"github.com/urfave/cli/v2"
+
 	"tessera/cmd/tessera/internal/imgfile"
 	"tessera/learn"
+	"tessera/patches"
 	"tessera/restore"
 )
 
@@ -40,11 +43,45 @@ type batch struct {
 	cleaned  map[string]bool            // output folders already cleared of stale temporaries
 }
 
+// addNote adds a note to the closing line's parenthesis.
+func addNote(line, note string) string {
+	if s, ok := strings.CutSuffix(line, ")"); ok && strings.Contains(line, " (") {
+		return s + "; " + note + ")"
+	}
+	return line + " (" + note + ")"
+}
+
+// step is the per-image work of a batch command: it restores the decoded
+// image of j, noting what it found in rec, and returns the image to write
+// (rounded and clipped by the caller) or an error that names j.
+type step func(b *batch, j *job, f *imgfile.File, slot int, rec *record) (*patches.Image, error)
+
+// batchHooks is what a command other than tessera denoise changes in the
+// batch runner; the zero value is tessera denoise.
+type batchHooks struct {
+	step     step                                   // nil: (*batch).denoise
+	defaults func(sigma255 float64) restore.Options // nil: restore.Defaults
+	beside   string                                 // suffix of outputs beside their inputs; "": besideSuffix
+	// leaveOut, when set, names files and folders that are not inputs
+	// (inpaint's masks); leftOut words them in the summary ("mask file").
+	leaveOut func(path string, dir bool) bool
+	leftOut  string
+	// prepare runs on the whole plan before sharding; an error stops the
+	// run as a usage error. annotate starts every record.
+	prepare  func(p *batchPlan) error
+	annotate func(j *job, rec *record)
+}
+
 func runBatch(cfg *config, e *env) error {
 	start := time.Now()
 	plan, err := makePlan(cfg)
 	if err != nil {
 		return err
+	}
+	if cfg.prepare != nil {
+		if err := cfg.prepare(plan); err != nil {
+			return err
+		}
 	}
 	var todo []*job
 	for i, j := range plan.jobs {
@@ -161,6 +198,9 @@ func runBatch(cfg *config, e *env) error {
 	repErr := rep.close()
 	repMu.Unlock()
 	last := summary(done, skipped, failed, plan.ignored, time.Since(start), cfg.shard, len(plan.jobs))
+	if plan.left > 0 {
+		last = addNote(last, fmt.Sprintf("%d %s%s not taken as input%s", plan.left, cfg.leftOut, plural(plan.left), plural(plan.left)))
+	}
 	if cfg.quiet {
 		last = ""
 	}
@@ -175,6 +215,89 @@ func runBatch(cfg *config, e *env) error {
 	return nil
 }
 
+// parseBatchConfig reads the options that every batch command shares:
+// the paths, --out, the numeric options of the numerics, --jobs, --report,
+// --force, --quiet, --max-pixels, --format and --shard. cmd names the
+// command in messages.
+func parseBatchConfig(cc *cli.Context, e *env, cmd string) (*config, error) {
+	c := &config{
+		paths:  cc.Args().Slice(),
+		out:    cc.String("out"),
+		outSet: cc.IsSet("out"),
+		patch:  cc.Int("patch"), atoms: cc.Int("atoms"), rounds: cc.Int("rounds"),
+		train: cc.Int("train"), bound: cc.Float64("bound"),
+		setPatch: cc.IsSet("patch"), setAtoms: cc.IsSet("atoms"), setRounds: cc.IsSet("rounds"),
+		setTrain: cc.IsSet("train"), setBound: cc.IsSet("bound"),
+		seed:   cc.Uint64("seed"),
+		jobs:   cc.Int("jobs"),
+		report: cc.String("report"),
+		force:  cc.Bool("force"),
+		quiet:  cc.Bool("quiet"),
+	}
+	if len(c.paths) == 0 {
+		return nil, usagef("give at least one PATH (an image, a folder, or - for standard input); see tessera %s --help", cmd)
+	}
+	for _, p := range c.paths {
+		if p == "" {
+			return nil, usagef("an empty PATH was given; check the quoting of the command line")
+		}
+	}
+	if c.outSet && c.out == "" {
+		return nil, usagef("--out is empty; give a folder, a file name or -")
+	}
+	if c.jobs < 1 || c.jobs > 4096 {
+		return nil, usagef("--jobs %d: must be 1..4096", c.jobs)
+	}
+	mp, err := parseMaxPixels(cc.String("max-pixels"))
+	if err != nil {
+		return nil, &usageError{err.Error()}
+	}
+	c.maxPixels = mp
+	if cc.IsSet("format") {
+		f, ok := outFormats[strings.ToLower(cc.String("format"))]
+		if !ok {
+			return nil, usagef("--format %q: unknown output format; choose png, tiff or pgm", cc.String("format"))
+		}
+		c.format = f
+	}
+	count := 0
+	if cc.IsSet("shard-count") {
+		n, err := parseCount(cc.String("shard-count"))
+		if err != nil || n < 1 || n > maxShards {
+			return nil, usagef("--shard-count %q: must be a whole number 1..%d", cc.String("shard-count"), maxShards)
+		}
+		count = n
+	}
+	switch s := cc.String("shard"); {
+	case !cc.IsSet("shard"):
+		if cc.IsSet("shard-count") {
+			return nil, usagef("--shard-count goes with --shard auto")
+		}
+	case s == "auto":
+		sh, err := autoShard(e.getenv, count)
+		if err != nil {
+			return nil, &usageError{err.Error()}
+		}
+		c.shard = sh
+	default:
+		if cc.IsSet("shard-count") {
+			return nil, usagef("--shard-count goes with --shard auto, not with --shard %s", s)
+		}
+		sh, err := parseShard(s)
+		if err != nil {
+			return nil, &usageError{err.Error()}
+		}
+		c.shard = sh
+	}
+	if c.report == "" && cc.IsSet("report") {
+		return nil, usagef("--report is empty; give a file name or -")
+	}
+	if c.report == "-" && c.out == "-" {
+		return nil, usagef("--report - and --out - both want standard output; give the report a file name")
+	}
+	return c, nil
+}
+
 // process restores one image and returns its record. It never panics: a
 // panic inside the numerics fails this image only.
 func (b *batch) process(j *job, slot int) (rec *record) {
@@ -187,6 +310,9 @@ func (b *batch) process(j *job, slot int) (rec *record) {
 		}
 		rec.Seconds = round4(time.Since(t0).Seconds())
 	}()
+	if b.cfg.annotate != nil {
+		b.cfg.annotate(j, rec)
+	}
 	if j.fail != nil {
 		rec.Error = j.fail.Error()
 		return rec
@@ -220,56 +346,16 @@ func (b *batch) process(j *job, slot int) (rec *record) {
 	dst := j.output(img.C)
 	rec.Output = dst
 
-	sigma := b.cfg.sigma
-	if p := b.cfg.options(25).Patch; sigma == 0 && (img.W < p || img.H < p) {
-		// Said before the estimator, which needs whole patches too.
-		rec.Error = fmt.Sprintf("%s: the image (%d×%d) is smaller than one %d×%d patch; use a smaller patch (--patch)", j.name, img.W, img.H, p, p)
-		return rec
+	step := b.cfg.step
+	if step == nil {
+		step = (*batch).denoise
 	}
-	if sigma == 0 && b.cfg.noise != noisePoisson {
-		b.con.set(slot, "estimating σ")
-		per := estimateSigma(img)
-		sum := 0.0
-		for _, s := range per {
-			rec.SigmaChannels = append(rec.SigmaChannels, round4(s))
-			sum += s * s
-		}
-		if len(per) > 0 {
-			sigma = math.Sqrt(sum / float64(len(per)))
-		}
-		rec.SigmaEstimated = true
-		if !(sigma > 0) {
-			rec.Error = fmt.Sprintf("%s: the noise estimate is %g (a flat or noise-free image?); give --sigma", j.name, sigma)
-			return rec
-		}
-	}
-	rec.Sigma = ptr(round4(sigma))
-	if peak := img.Peak(); sigma >= peak {
-		rec.Error = fmt.Sprintf("%s: σ = %g is not below the %d-bit peak %g; give --sigma in the image's own units (0..%g)", j.name, sigma, img.Depth, peak, peak)
-		return rec
-	}
-
-	opt := b.cfg.options(sigma * 255 / img.Peak())
-	opt.Seed = learn.SubSeed(b.cfg.seed, j.rel)
-	opt.Workers = b.workers
-	opt.Progress = func(s restore.Stage) { b.con.set(slot, stageText(s)) }
-	if opt.Rounds > 0 {
-		b.con.set(slot, stageText(restore.Stage{Name: "train", Rounds: opt.Rounds}))
-	} else {
-		b.con.set(slot, "coding 0%")
-	}
-	out, res, err := b.cfg.denoiseImage(img, sigma, opt, rec)
+	out, err := step(b, j, f, slot, rec)
 	if err != nil {
-		var oe *restore.OptionError
-		if errors.As(err, &oe) {
-			rec.Error = fmt.Sprintf("%s: %s (--%s)", j.name, oe.Reason, oe.Field)
-		} else {
-			rec.Error = fmt.Sprintf("%s: %v", j.name, err)
-		}
+		rec.Error = err.Error()
 		return rec
 	}
 	out.Quantize()
-	rec.MeanAtoms = ptr(round4(res.MeanAtoms))
 
 	format := b.cfg.format
 	if format == "" {
@@ -289,6 +375,62 @@ func (b *batch) process(j *job, slot int) (rec *record) {
 	}
 	rec.Status = statusDone
 	return rec
+}
+
+// denoise is the step of tessera denoise: σ given or estimated, then
+// K-SVD denoising with the noise model of the command line.
+func (b *batch) denoise(j *job, f *imgfile.File, slot int, rec *record) (*patches.Image, error) {
+	img := f.Img
+	sigma := b.cfg.sigma
+	if p := b.cfg.options(25).Patch; sigma == 0 && (img.W < p || img.H < p) {
+		// Said before the estimator, which needs whole patches too.
+		return nil, fmt.Errorf("%s: the image (%d×%d) is smaller than one %d×%d patch; use a smaller patch (--patch)", j.name, img.W, img.H, p, p)
+	}
+	if sigma == 0 && b.cfg.noise != noisePoisson {
+		b.con.set(slot, "estimating σ")
+		per := estimateSigma(img)
+		sum := 0.0
+		for _, s := range per {
+			rec.SigmaChannels = append(rec.SigmaChannels, round4(s))
+			sum += s * s
+		}
+		if len(per) > 0 {
+			sigma = math.Sqrt(sum / float64(len(per)))
+		}
+		rec.SigmaEstimated = true
+		if !(sigma > 0) {
+			return nil, fmt.Errorf("%s: the noise estimate is %g (a flat or noise-free image?); give --sigma", j.name, sigma)
+		}
+	}
+	rec.Sigma = ptr(round4(sigma))
+	if peak := img.Peak(); sigma >= peak {
+		return nil, fmt.Errorf("%s: σ = %g is not below the %d-bit peak %g; give --sigma in the image's own units (0..%g)", j.name, sigma, img.Depth, peak, peak)
+	}
+
+	opt := b.cfg.options(sigma * 255 / img.Peak())
+	opt.Seed = learn.SubSeed(b.cfg.seed, j.rel)
+	opt.Workers = b.workers
+	opt.Progress = func(s restore.Stage) { b.con.set(slot, stageText(s)) }
+	if opt.Rounds > 0 {
+		b.con.set(slot, stageText(restore.Stage{Name: "train", Rounds: opt.Rounds}))
+	} else {
+		b.con.set(slot, "coding 0%")
+	}
+	out, res, err := b.cfg.denoiseImage(img, sigma, opt, rec)
+	if err != nil {
+		return nil, restoreErr(j.name, err)
+	}
+	rec.MeanAtoms = ptr(round4(res.MeanAtoms))
+	return out, nil
+}
+
+// restoreErr words an error of the numerics for the record of name.
+func restoreErr(name string, err error) error {
+	var oe *restore.OptionError
+	if errors.As(err, &oe) {
+		return fmt.Errorf("%s: %s (--%s)", name, oe.Reason, oe.Field)
+	}
+	return fmt.Errorf("%s: %v", name, err)
 }
 
 // write stores the result at dst, or on standard output for "-".

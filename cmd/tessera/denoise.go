@@ -60,13 +60,18 @@ type config struct {
 	maxPixels int64
 
 	dictConfig // --dict and --tile (learncmd.go)
+	batchHooks // what other batch commands change (batch.go)
 }
 
 // options gives the restore options for an image with σ on the 0–255
 // scale: the library's defaults for that σ, with the options given on the
 // command line laid over them.
 func (c *config) options(sigma255 float64) restore.Options {
-	o := restore.Defaults(sigma255)
+	defaults := restore.Defaults
+	if c.defaults != nil {
+		defaults = c.defaults
+	}
+	o := defaults(sigma255)
 	if c.setPatch {
 		o.Patch = c.patch
 	}
@@ -208,30 +213,9 @@ func flagErrText(err error) string {
 }
 
 func parseConfig(cc *cli.Context, e *env) (*config, error) {
-	c := &config{
-		paths:  cc.Args().Slice(),
-		out:    cc.String("out"),
-		outSet: cc.IsSet("out"),
-		patch:  cc.Int("patch"), atoms: cc.Int("atoms"), rounds: cc.Int("rounds"),
-		train: cc.Int("train"), bound: cc.Float64("bound"),
-		setPatch: cc.IsSet("patch"), setAtoms: cc.IsSet("atoms"), setRounds: cc.IsSet("rounds"),
-		setTrain: cc.IsSet("train"), setBound: cc.IsSet("bound"),
-		seed:   cc.Uint64("seed"),
-		jobs:   cc.Int("jobs"),
-		report: cc.String("report"),
-		force:  cc.Bool("force"),
-		quiet:  cc.Bool("quiet"),
-	}
-	if len(c.paths) == 0 {
-		return nil, usagef("give at least one PATH (an image, a folder, or - for standard input); see tessera denoise --help")
-	}
-	for _, p := range c.paths {
-		if p == "" {
-			return nil, usagef("an empty PATH was given; check the quoting of the command line")
-		}
-	}
-	if c.outSet && c.out == "" {
-		return nil, usagef("--out is empty; give a folder, a file name or -")
+	c, err := parseBatchConfig(cc, e, "denoise")
+	if err != nil {
+		return nil, err
 	}
 	if err := c.parseNoise(cc); err != nil {
 		return nil, err
@@ -250,56 +234,6 @@ func parseConfig(cc *cli.Context, e *env) (*config, error) {
 	}
 	if err := c.checkOptions(); err != nil {
 		return nil, err
-	}
-	if c.jobs < 1 || c.jobs > 4096 {
-		return nil, usagef("--jobs %d: must be 1..4096", c.jobs)
-	}
-	mp, err := parseMaxPixels(cc.String("max-pixels"))
-	if err != nil {
-		return nil, &usageError{err.Error()}
-	}
-	c.maxPixels = mp
-	if cc.IsSet("format") {
-		f, ok := outFormats[strings.ToLower(cc.String("format"))]
-		if !ok {
-			return nil, usagef("--format %q: unknown output format; choose png, tiff or pgm", cc.String("format"))
-		}
-		c.format = f
-	}
-	count := 0
-	if cc.IsSet("shard-count") {
-		n, err := parseCount(cc.String("shard-count"))
-		if err != nil || n < 1 || n > maxShards {
-			return nil, usagef("--shard-count %q: must be a whole number 1..%d", cc.String("shard-count"), maxShards)
-		}
-		count = n
-	}
-	switch s := cc.String("shard"); {
-	case !cc.IsSet("shard"):
-		if cc.IsSet("shard-count") {
-			return nil, usagef("--shard-count goes with --shard auto")
-		}
-	case s == "auto":
-		sh, err := autoShard(e.getenv, count)
-		if err != nil {
-			return nil, &usageError{err.Error()}
-		}
-		c.shard = sh
-	default:
-		if cc.IsSet("shard-count") {
-			return nil, usagef("--shard-count goes with --shard auto, not with --shard %s", s)
-		}
-		sh, err := parseShard(s)
-		if err != nil {
-			return nil, &usageError{err.Error()}
-		}
-		c.shard = sh
-	}
-	if c.report == "" && cc.IsSet("report") {
-		return nil, usagef("--report is empty; give a file name or -")
-	}
-	if c.report == "-" && c.out == "-" {
-		return nil, usagef("--report - and --out - both want standard output; give the report a file name")
 	}
 	return c, nil
 }

@@ -16,9 +16,9 @@ import (
 
 // estimateSigma gives the noise σ of each channel of an image, in the
 // image's units; it is used when --sigma is omitted. A colour image is
-// denoised with the root mean square of its channels' estimates: its
-// patches are coded jointly, and n·(C·σ)² with that σ is the expected
-// noise energy of a joint patch.
+// denoised with the root mean square of its channels' estimates: the
+// opponent transform it is coded in is orthonormal, so that σ is the noise
+// of every opponent channel when R, G and B share it.
 var estimateSigma = noise.EstimateAll
 
 // Noise models of --noise.

@@ -192,7 +192,7 @@ func runLearn(cc *cli.Context, e *env) error {
 		counts[i] = uint64(u)
 	}
 	file := &dictfile.File{Dict: d, Uses: counts, Training: dictfile.Training{
-		Program: "tessera learn", Images: len(inputs), Patches: tr.Patches,
+		Program: "tessera learn", Images: len(inputs), ImageChannels: tr.ImageChannels, Patches: tr.Patches,
 		Rounds: opt.Rounds, Train: opt.Train, Bound: opt.Bound, Seed: opt.Seed,
 		Sigma: c.sigma, SigmaMin: round4(smin), SigmaMax: round4(smax),
 	}}
@@ -211,8 +211,12 @@ func runLearn(cc *cli.Context, e *env) error {
 	}
 	status.done()
 	if !c.quiet {
-		fmt.Fprintf(e.stderr, "tessera: learned %d atoms of %d×%d %s patches from %d patches of %d images (%d rounds, %.2f atoms per patch) in %.1f s → %s\n",
-			d.K, d.Patch, d.Patch, chanWord(d.Channels), tr.Patches, len(inputs), opt.Rounds, tr.MeanAtoms, time.Since(start).Seconds(), c.out)
+		kind := chanWord(d.Channels)
+		if d.Channels < tr.ImageChannels {
+			kind = "one-channel"
+		}
+		fmt.Fprintf(e.stderr, "tessera: learned %d atoms of %d×%d %s patches from %d patches of %d %s images (%d rounds, %.2f atoms per patch) in %.1f s → %s\n",
+			d.K, d.Patch, d.Patch, kind, tr.Patches, len(inputs), chanWord(tr.ImageChannels), opt.Rounds, tr.MeanAtoms, time.Since(start).Seconds(), c.out)
 	}
 	return nil
 }
@@ -305,6 +309,7 @@ func (s *status) done() {
 type dictConfig struct {
 	dictPath string
 	dict     *learn.Dict
+	dictImgC int // channels of the images it was learned on; 0: not recorded
 	tile     int
 }
 
@@ -351,7 +356,7 @@ func (c *config) loadDict(cc *cli.Context) error {
 	if c.setAtoms && c.atoms != d.K {
 		return usagef("--atoms %d does not match --dict %s, which holds %d atoms; drop --atoms", c.atoms, c.dictPath, d.K)
 	}
-	c.dict = d
+	c.dict, c.dictImgC = d, f.Training.ImageChannels
 	return nil
 }
 
@@ -368,13 +373,13 @@ func (c *config) applyDict(o *restore.Options) {
 }
 
 // gaussDenoise restores one image with restore.Denoise, or DenoiseTiled
-// when a side exceeds --tile; a stored dictionary must match the image's
-// channels.
+// when a side exceeds --tile; a stored dictionary must have been learned on
+// images with the image's channels (restore checks the atom length too).
 func (c *config) gaussDenoise(img *patches.Image, sigma float64, opt restore.Options) (*patches.Image, *restore.Result, error) {
-	if d := c.dict; d != nil && d.Channels != img.C {
+	if d, k := c.dict, c.dictImgC; d != nil && k > 0 && k != img.C {
 		return nil, nil, &restore.OptionError{Field: "dict", Reason: fmt.Sprintf(
-			"the dictionary %s holds %d×%d %s patches (%d channel%s) but the image is %s (%d channel%s); learn a dictionary on %s images",
-			c.dictPath, d.Patch, d.Patch, chanWord(d.Channels), d.Channels, plural(d.Channels), chanWord(img.C), img.C, plural(img.C), chanWord(img.C))}
+			"the dictionary %s was learned on %s images (%d channel%s) but this image is %s (%d channel%s); learn one on %s images",
+			c.dictPath, chanWord(k), k, plural(k), chanWord(img.C), img.C, plural(img.C), chanWord(img.C))}
 	}
 	if c.tile > 0 && (img.W > c.tile || img.H > c.tile) {
 		return restore.DenoiseTiled(img, sigma, c.tile, opt)

@@ -48,7 +48,7 @@ func newApp(e *env) *cli.App {
 			return cli.ShowAppHelp(cc)
 		},
 		ExitErrHandler: func(*cli.Context, error) {}, // run picks the exit status
-		Commands:       []*cli.Command{denoiseCommand(e), scoreCommand(e), benchCommand(e), learnCommand(e), atomsCommand(e), noiseCommand(e)},
+		Commands:       []*cli.Command{denoiseCommand(e), inpaintCommand(e), scoreCommand(e), benchCommand(e), learnCommand(e), atomsCommand(e), noiseCommand(e)},
 	}
 }
 
@@ -62,6 +62,8 @@ func run(args []string, e *env) int {
 				var rest []string
 				if rest, err = intersperse(args[2:], valueFlags(c)); err == nil {
 					args = append(args[:2:2], rest...)
+				} else if ue, ok := err.(*usageError); ok {
+					ue.msg = strings.Replace(ue.msg, "tessera denoise", "tessera "+c.Name, 1)
 				}
 			}
 		}

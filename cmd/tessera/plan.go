@@ -36,8 +36,12 @@ func (j *job) output(c int) string {
 type batchPlan struct {
 	jobs    []*job
 	ignored int               // hidden entries and files without an image extension
+	left    int               // entries that leaveOut names (inpaint's masks)
 	inputs  map[string]string // real path of every input file → its name
 	outputs map[string]bool   // real path of every output
+
+	// leaveOut, when set, names the files and folders that are not inputs.
+	leaveOut func(path string, dir bool) bool
 }
 
 const besideSuffix = ".denoised"
@@ -46,7 +50,7 @@ const besideSuffix = ".denoised"
 // usageError for a command line that cannot work (a folder without --out,
 // an output over an input); problems of single inputs become failed jobs.
 func makePlan(cfg *config) (*batchPlan, error) {
-	p := &batchPlan{inputs: map[string]string{}, outputs: map[string]bool{}}
+	p := &batchPlan{inputs: map[string]string{}, outputs: map[string]bool{}, leaveOut: cfg.leaveOut}
 	if len(cfg.paths) == 1 && cfg.paths[0] == "-" {
 		return p, p.planStdin(cfg)
 	}
@@ -135,6 +139,8 @@ func makePlan(cfg *config) (*batchPlan, error) {
 			p.jobs = append(p.jobs, &job{name: in.path, key: filepath.ToSlash(filepath.Base(in.path)), fail: statErr(in.path, in.err)})
 		case in.dir:
 			p.walk(in.path)
+		case p.leaveOut != nil && p.leaveOut(in.path, false):
+			p.left++
 		default:
 			base := filepath.Base(in.path)
 			p.jobs = append(p.jobs, &job{name: in.path, src: in.path, rel: base, key: base})
@@ -183,10 +189,10 @@ func makePlan(cfg *config) (*batchPlan, error) {
 				realDirs[dir] = rd
 			}
 			n, rgb := outNames(filepath.Base(j.src), cfg.format)
-			n = besideName(n)
+			n = besideAs(n, cfg.besideTag())
 			j.dst, real = filepath.Join(dir, n), filepath.Join(rd, n)
 			if rgb != "" {
-				rgb = besideName(rgb)
+				rgb = besideAs(rgb, cfg.besideTag())
 				j.dstRGB, realRGB = filepath.Join(dir, rgb), filepath.Join(rd, rgb)
 			}
 		}
@@ -268,6 +274,13 @@ func (p *batchPlan) walk(root string) {
 			}
 			return nil
 		}
+		if p.leaveOut != nil && p.leaveOut(q, d.IsDir()) {
+			p.left++
+			if d.IsDir() {
+				return filepath.SkipDir
+			}
+			return nil
+		}
 		if d.IsDir() {
 			return nil
 		}
@@ -324,12 +337,23 @@ func family(format string) string {
 }
 
 // besideName inserts the suffix before an image extension: a.png → a.denoised.png.
-func besideName(name string) string {
+func besideName(name string) string { return besideAs(name, besideSuffix) }
+
+// besideAs inserts suffix before an image extension.
+func besideAs(name, suffix string) string {
 	if imgfile.IsImageName(name) {
 		ext := filepath.Ext(name)
-		return strings.TrimSuffix(name, ext) + besideSuffix + ext
+		return strings.TrimSuffix(name, ext) + suffix + ext
 	}
-	return name + besideSuffix
+	return name + suffix
+}
+
+// besideTag is the suffix of outputs written beside their inputs.
+func (c *config) besideTag() string {
+	if c.beside != "" {
+		return c.beside
+	}
+	return besideSuffix
 }
 
 // isFolderName reports whether --out names a folder for a single input: an

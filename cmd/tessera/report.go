@@ -44,6 +44,15 @@ type record struct {
 	Format             string    `json:"format"` // format written, "" if none
 	MeanAtoms          *float64  `json:"mean_atoms"`
 	Seconds            float64   `json:"seconds"`
+	*Inpainting                  // tessera inpaint's keys; nil for denoise
+}
+
+// Inpainting holds the keys tessera inpaint adds to its records.
+type Inpainting struct {
+	Mask   string `json:"mask"`   // the mask file, or "value=V" for --missing-value
+	Filled *int   `json:"filled"` // pixels given a value
+	Passes *int   `json:"passes"` // sparse passes run
+	Note   string `json:"note,omitempty"`
 }
 
 func ptr[T any](v T) *T { return &v }

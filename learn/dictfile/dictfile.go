@@ -41,13 +41,16 @@ var castagnoli = crc32.MakeTable(crc32.Castagnoli)
 // Training describes how a dictionary was learned. Every field is
 // optional; zero values are left out of the file.
 type Training struct {
-	Program string  `json:"program,omitempty"` // e.g. "tessera learn"
-	Images  int     `json:"images,omitempty"`  // images the patches came from
-	Patches int     `json:"patches,omitempty"` // training patches drawn in all
-	Rounds  int     `json:"rounds,omitempty"`  // K-SVD rounds
-	Train   int     `json:"train,omitempty"`   // training patches asked for
-	Bound   float64 `json:"bound,omitempty"`   // C of the coding bound n·(C·σ)²
-	Seed    uint64  `json:"seed,omitempty"`
+	Program string `json:"program,omitempty"` // e.g. "tessera learn"
+	Images  int    `json:"images,omitempty"`  // images the patches came from
+	// ImageChannels is the channel count of those images; the atoms have
+	// fewer when colour channels were coded apart.
+	ImageChannels int     `json:"image_channels,omitempty"`
+	Patches       int     `json:"patches,omitempty"` // training patches drawn in all
+	Rounds        int     `json:"rounds,omitempty"`  // K-SVD rounds
+	Train         int     `json:"train,omitempty"`   // training patches asked for
+	Bound         float64 `json:"bound,omitempty"`   // C of the coding bound n·(C·σ)²
+	Seed          uint64  `json:"seed,omitempty"`
 	// Sigma is σ as given, in the images' own units; 0 when it was
 	// estimated per image.
 	Sigma float64 `json:"sigma,omitempty"`

@@ -20,7 +20,7 @@ func sample(uses bool) *File {
 	d := learn.OvercompleteDCT(4, 5, 3) // 25 atoms of 3·4² = 48
 	d.Atoms[7] = -0.0                   // the sign of zero must survive too
 	d.Atoms[8] = math.SmallestNonzeroFloat64
-	f := &File{Dict: d, Training: Training{Program: "tessera learn", Images: 20, Patches: 4000,
+	f := &File{Dict: d, Training: Training{Program: "tessera learn", Images: 20, ImageChannels: 3, Patches: 4000,
 		Rounds: 5, Train: 4000, Bound: 1.15, Seed: 1<<64 - 1, SigmaMin: 19.5, SigmaMax: 20.25}}
 	if uses {
 		f.Uses = make([]uint64, d.K)
