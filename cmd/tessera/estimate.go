@@ -79,7 +79,7 @@ var errNoGain = errors.New("no signal-dependent noise found (estimated gain 0); 
 // Gaussian model only.
 func (c *config) denoiseImage(img *patches.Image, sigma float64, opt restore.Options, rec *record) (*patches.Image, *restore.Result, error) {
 	if c.noise != noisePoisson {
-		return restore.Denoise(img, sigma, opt)
+		return c.gaussDenoise(img, sigma, opt)
 	}
 	rec.Sigma, rec.SigmaEstimated, rec.SigmaChannels = nil, false, nil
 	gain, read := c.gain, c.readNoise

@@ -120,6 +120,7 @@ func TestDictErrors(t *testing.T) {
 		{[]string{"denoise", "--sigma", "10", "--dict", "d.tdict", "--patch", "6", "frames/f01.png", "--out", "o.png"}, 2, "--patch 6 does not match --dict d.tdict, which holds 8×8 patches"},
 		{[]string{"denoise", "--sigma", "10", "--dict", "d.tdict", "--atoms", "100", "frames/f01.png", "--out", "o.png"}, 2, "--atoms 100 does not match --dict d.tdict, which holds 64 atoms"},
 		{[]string{"denoise", "--sigma", "10", "--tile", "10", "frames/f01.png", "--out", "o.png"}, 2, "--tile 10: must be 64..1048576"},
+		{[]string{"denoise", "--sigma", "10", "--dict", "d.tdict", "colour.png", "--out", "o.png"}, 1, "learned on gray images (1 channel) but this image is colour (3 channels)"},
 		{[]string{"atoms", "damaged.tdict", "--out", "a.png"}, 2, "payload checksum mismatch"},
 		{[]string{"atoms", "d.tdict", "--out", "a.jpg"}, 2, "give a .png, .tif or .pgm name"},
 		{[]string{"atoms", "d.tdict"}, 2, "--out IMAGE"},
