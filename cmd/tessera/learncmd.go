@@ -315,7 +315,7 @@ type dictConfig struct {
 
 var dictFlag = &cli.StringFlag{Name: "dict", Usage: "code with the dictionary in `FILE` (from tessera learn) instead of training on each image; with --rounds N it is the start of N rounds of training"}
 
-// defaultTile was chosen by measurement (README-series.md): larger tiles
+// defaultTile was chosen by measurement (README, "Large images"): larger tiles
 // were no faster, smaller ones no leaner in total.
 const defaultTile = 1024
 
