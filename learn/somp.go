@@ -40,9 +40,9 @@ type SOMPOptions struct {
 	Rule     SOMPRule
 }
 
-// sompBlock is the most signals whose correlations one product computes; a
-// larger group gets a block of its own. The partition depends on the groups
-// alone, so results do not depend on the worker count.
+// sompBlockSignals is the most signals whose correlations one product
+// computes; a larger group gets a block of its own. The partition depends
+// on the groups alone, so results do not depend on the worker count.
 const sompBlockSignals = 512
 
 // SOMP codes the m signals of the row-major m×N block X in groups that
@@ -50,10 +50,12 @@ const sompBlockSignals = 512
 // (groups[0] = 0, the last entry m, increasing). Atoms are chosen one at a
 // time by opt.Rule over the residuals of the whole group; every signal gets
 // its own least-squares coefficients on the common atoms (simultaneous OMP,
-// Tropp, Gilbert & Strauss 2006, computed in the Batch-OMP manner of
-// Rubinstein, Zibulevsky & Elad 2008 from the Gram matrix). A group of one
-// signal is coded exactly as Code codes it. Every signal of a group has the
-// same atoms in the same order in the returned codes.
+// Tropp, Gilbert & Strauss 2006). As in Batch-OMP (Rubinstein, Zibulevsky
+// & Elad 2008) only the correlations Dᵀx are computed from the signals, one
+// matrix product per block; the rest works on the Gram matrix. A group of
+// one signal gets the atoms and coefficients (to rounding) that Code gives
+// it. Every signal of a group has the same atoms in the same order in the
+// returned codes.
 //
 // SOMP panics when groups is malformed or X is shorter than m×N.
 func (c *Coder) SOMP(X []float64, groups []int32, opt SOMPOptions) *Codes {

@@ -99,7 +99,10 @@ func TestSOMPOneSignalEqualsOMPOnReference(t *testing.T) {
 
 // textbookSOMP is algorithm 3.1 of Tropp, Gilbert & Strauss (2006) written
 // out with explicit residuals and a least-squares solve per signal.
-func textbookSOMP(D *mat.Dense, X [][]float64, bound float64, L int, rule SOMPRule) ([]int, [][]float64) {
+//
+// With minGain > 0 an atom is kept only if it lowers the total residual by
+// at least minGain (the penalised form of the same greedy search).
+func textbookSOMP(D *mat.Dense, X [][]float64, bound, minGain float64, L int, rule SOMPRule) ([]int, [][]float64) {
 	n, k := D.Dims()
 	R := make([]*mat.VecDense, len(X))
 	for i, x := range X {
@@ -130,11 +133,17 @@ func textbookSOMP(D *mat.Dense, X [][]float64, bound float64, L int, rule SOMPRu
 				best, bi = v, j
 			}
 		}
+		before := total()
 		sel = append(sel, bi)
 		A := mat.NewDense(n, len(sel), nil)
 		for c, j := range sel {
 			A.SetCol(c, mat.Col(nil, j, D))
 		}
+		saved := make([]*mat.VecDense, len(R))
+		for i, r := range R {
+			saved[i] = mat.VecDenseCopyOf(r)
+		}
+		prev := append([][]float64(nil), coef...)
 		coef = coef[:0]
 		for i, x := range X {
 			var g mat.VecDense
@@ -146,13 +155,17 @@ func textbookSOMP(D *mat.Dense, X [][]float64, bound float64, L int, rule SOMPRu
 			R[i].SubVec(mat.NewVecDense(n, x), &fit)
 			coef = append(coef, mat.Col(nil, 0, &g))
 		}
+		if minGain > 0 && before-total() < minGain {
+			sel, coef, R = sel[:len(sel)-1], prev, saved
+			break
+		}
 	}
 	return sel, coef
 }
 
 // Groups of 1 to 9 signals near a common sparse support, plus noise: the
 // coder picks the textbook algorithm's atoms in its order, with its
-// coefficients to 1e-9, under both rules and both stopping rules.
+// coefficients to 1e-9, under both rules and all stopping rules.
 func TestSOMPEqualsTextbookSOMP(t *testing.T) {
 	const n, k = 32, 96
 	d := sompRandomDict(n, k, 3)
@@ -187,18 +200,23 @@ func TestSOMPEqualsTextbookSOMP(t *testing.T) {
 	}
 	const eps = 32 * 0.05 * 0.05
 	for _, rule := range []SOMPRule{SumAbs, SumSquares} {
-		for _, L := range []int{6, 0} {
+		for _, cs := range []struct{ L, gain int }{{6, 0}, {0, 0}, {0, 1}} {
+			L := cs.L
 			e := eps
-			if L > 0 {
-				e = 0
+			if L > 0 || cs.gain > 0 {
+				e = 0 // the count or the gain alone stops
 			}
-			codes := c.SOMP(X, groups, SOMPOptions{Eps: e, MaxAtoms: L, Rule: rule})
+			gain := float64(cs.gain) * 0.3 // per signal, about 0.3 of an atom's energy here
+			codes := c.SOMP(X, groups, SOMPOptions{Eps: e, MaxAtoms: L, Rule: rule, MinGain: gain})
 			for g, grp := range sigs {
 				lim := L
 				if lim == 0 {
 					lim = n
 				}
-				sel, coef := textbookSOMP(D, grp, e*float64(len(grp)), lim, rule)
+				sel, coef := textbookSOMP(D, grp, e*float64(len(grp)), gain*float64(len(grp)), lim, rule)
+				if cs.gain > 0 && len(sel) >= 8 {
+					t.Errorf("rule %d group %d: the gain rule kept %d atoms, want about the 4 true ones", rule, g, len(sel))
+				}
 				for i := range grp {
 					s := int(groups[g]) + i
 					if codes.Atoms(s) != len(sel) {
