@@ -67,13 +67,15 @@ func match(img *patches.Image, mp matchParams, workers int) *grouping {
 			rows := (bandRows-1)*mp.step + p
 			diff := make([]float32, W)
 			hsum := make([]float32, rows*nx)
+			vsum := make([]float32, nx)
+			prefix := make([]float64, W+1)
 			for {
 				b := int(atomic.AddInt64(&next, 1))
 				if b >= nb {
 					return
 				}
 				j0, j1 := b*bandRows, min((b+1)*bandRows, len(ys))
-				searchBand(planes, W, H, xs, ys, j0, j1, mp, diff, hsum, dist, pos, cnt)
+				searchBand(planes, W, H, xs, ys, j0, j1, mp, diff, hsum, vsum, prefix, dist, pos, cnt)
 			}
 		}()
 	}
@@ -114,7 +116,7 @@ func less(d1 float32, p1 int32, d2 float32, p2 int32) bool {
 }
 
 // searchBand fills the heaps of the references in rows j0..j1−1.
-func searchBand(planes [][]float32, W, H int, xs, ys []int, j0, j1 int, mp matchParams, diff, hsum []float32, dist []float32, pos, cnt []int32) {
+func searchBand(planes [][]float32, W, H int, xs, ys []int, j0, j1 int, mp matchParams, diff, hsum, vsum []float32, prefix []float64, dist []float32, pos, cnt []int32) {
 	p, R, k := mp.p, mp.radius, mp.size
 	nx := len(xs)
 	// The reference is its own nearest (distance −1 keeps it first even
@@ -171,36 +173,45 @@ func searchBand(planes [][]float32, W, H int, xs, ys []int, j0, j1 int, mp match
 						}
 					}
 				}
+				// Row sums over p samples at the reference columns, from
+				// prefix sums (in float64, so the differences stay exact
+				// enough along a whole row).
+				pre := prefix[:xb-xa+1]
+				acc := 0.0
+				for t, v := range d {
+					pre[t] = acc
+					acc += float64(v)
+				}
+				pre[xb-xa] = acc
 				hrow := hsum[(y-y0)*nx : (y-y0+1)*nx]
 				for i := ia; i < ib; i++ {
-					hrow[i] = boxSum(diff[xs[i] : xs[i]+p])
+					o := xs[i] - xa
+					hrow[i] = float32(pre[o+p] - pre[o])
 				}
 			}
 			delta := int32(dy*W + dx)
 			for j := ja; j < jb; j++ {
+				// Column sums of the p rows of this reference row, a row
+				// at a time so that the reads are contiguous.
+				vs := vsum[ia:ib]
 				base := (ys[j] - y0) * nx
-				for i := ia; i < ib; i++ {
-					v := float32(0)
-					for q := 0; q < p; q++ {
-						v += hsum[base+q*nx+i]
+				copy(vs, hsum[base+ia:base+ib])
+				for q := 1; q < p; q++ {
+					row := hsum[base+q*nx+ia : base+q*nx+ib]
+					for i, h := range row {
+						vs[i] += h
 					}
+				}
+				for i, v := range vs {
 					if v > mp.maxDist {
 						continue
 					}
-					r := j*nx + i
-					push(dist[r*k:(r+1)*k], pos[r*k:(r+1)*k], &cnt[r], v, int32(ys[j]*W+xs[i])+delta)
+					r := j*nx + ia + i
+					push(dist[r*k:(r+1)*k], pos[r*k:(r+1)*k], &cnt[r], v, int32(ys[j]*W+xs[ia+i])+delta)
 				}
 			}
 		}
 	}
-}
-
-func boxSum(a []float32) float32 {
-	s := float32(0)
-	for _, v := range a {
-		s += v
-	}
-	return s
 }
 
 // push offers a candidate to a max-heap (by distance, then position) of at

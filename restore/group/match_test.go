@@ -1,11 +1,13 @@
 package group
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
 	"tessera/learn"
 	"tessera/patches"
+	"tessera/restore"
 )
 
 // naiveDist is the squared distance of two patches summed sample by sample.
@@ -88,4 +90,57 @@ func abs(a int) int {
 		return -a
 	}
 	return a
+}
+
+// BenchmarkMatch times the box-sum search against a direct one (every
+// distance summed over its p² samples) on a 256×256 Kodak crop with the
+// σ = 25 settings, at reference steps 2 and 3, one worker:
+//
+//	go test ./restore/group -run '^$' -bench Match
+func BenchmarkMatch(b *testing.B) {
+	for _, step := range []int{2, 3} {
+		b.Run(fmt.Sprint("step", step), func(b *testing.B) { benchMatch(b, step) })
+	}
+}
+
+func benchMatch(b *testing.B, step int) {
+	img := restore.AddNoise(centreCrop(kodakGray(b, "kodim19.png"), 256, 256), 25, 1, "kodim19.png")
+	pr := DefaultParams(25)
+	mp := matchParams{p: 8, step: step, radius: pr.Window / 2, size: pr.Group, maxDist: float32(pr.Match * 2 * 64 * 625)}
+	b.Run("boxsum", func(b *testing.B) {
+		for i := 0; i < b.N; i++ {
+			match(img, mp, 1)
+		}
+	})
+	b.Run("direct", func(b *testing.B) {
+		xs := patches.Positions(img.W, 8, mp.step)
+		ys := patches.Positions(img.H, 8, mp.step)
+		pl := img.Plane(0)
+		W := img.W
+		for i := 0; i < b.N; i++ {
+			for _, ry := range ys {
+				for _, rx := range xs {
+					d := make([]float32, mp.size)
+					p := make([]int32, mp.size)
+					var n int32
+					for y := max(0, ry-mp.radius); y <= min(img.H-8, ry+mp.radius); y++ {
+						for x := max(0, rx-mp.radius); x <= min(img.W-8, rx+mp.radius); x++ {
+							s := float32(0)
+							for v := 0; v < 8; v++ {
+								a := pl[(ry+v)*W+rx : (ry+v)*W+rx+8]
+								c := pl[(y+v)*W+x : (y+v)*W+x+8]
+								for u := range a {
+									e := a[u] - c[u]
+									s += e * e
+								}
+							}
+							if s <= mp.maxDist {
+								push(d, p, &n, s, int32(y*W+x))
+							}
+						}
+					}
+				}
+			}
+		}
+	})
 }
