@@ -82,7 +82,7 @@ func Denoise(img *patches.Image, sigma float64, opt Options) (*patches.Image, *R
 	var out *patches.Image
 	var res *Result
 	if img.C > 1 && opt.Color == ColorSeparate {
-		op := toOpponent(work)
+		op := ToOpponent(work)
 		rest := patches.New(img.W, img.H, img.C, img.Depth)
 		res = &Result{}
 		for c := 0; c < img.C; c++ {
@@ -93,7 +93,7 @@ func Denoise(img *patches.Image, sigma float64, opt Options) (*patches.Image, *R
 			res.MeanAtoms += r.MeanAtoms / float64(img.C)
 			res.Dict = r.Dict
 		}
-		out = fromOpponent(rest)
+		out = FromOpponent(rest)
 	} else {
 		out, res = denoisePlane(work, s255, opt)
 	}
@@ -219,10 +219,10 @@ func scaled(img *patches.Image, s float64) *patches.Image {
 	return out
 }
 
-// toOpponent applies the orthonormal opponent transform
+// ToOpponent applies the orthonormal opponent transform
 // (R+G+B)/√3, (R−B)/√2, (R−2G+B)/√6: white noise stays white with the same σ
 // in every channel, so each can be denoised alone at that σ.
-func toOpponent(img *patches.Image) *patches.Image {
+func ToOpponent(img *patches.Image) *patches.Image {
 	out := patches.New(img.W, img.H, 3, img.Depth)
 	r, g, b := img.Plane(0), img.Plane(1), img.Plane(2)
 	o0, o1, o2 := out.Plane(0), out.Plane(1), out.Plane(2)
@@ -235,7 +235,8 @@ func toOpponent(img *patches.Image) *patches.Image {
 	return out
 }
 
-func fromOpponent(img *patches.Image) *patches.Image {
+// FromOpponent inverts ToOpponent.
+func FromOpponent(img *patches.Image) *patches.Image {
 	out := patches.New(img.W, img.H, 3, img.Depth)
 	a, b, c := img.Plane(0), img.Plane(1), img.Plane(2)
 	r, g, bl := out.Plane(0), out.Plane(1), out.Plane(2)

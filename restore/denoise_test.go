@@ -125,7 +125,7 @@ func TestOpponentRoundTrip(t *testing.T) {
 	for i := range img.Pix {
 		img.Pix[i] = float32(i * 7 % 255)
 	}
-	back := fromOpponent(toOpponent(img))
+	back := FromOpponent(ToOpponent(img))
 	for i := range img.Pix {
 		if math.Abs(float64(back.Pix[i]-img.Pix[i])) > 1e-3 {
 			t.Fatalf("sample %d: %g → %g", i, img.Pix[i], back.Pix[i])

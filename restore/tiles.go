@@ -54,7 +54,7 @@ func DenoiseTiled(img *patches.Image, sigma float64, tile int, opt Options) (*pa
 	return out, res, nil
 }
 
-// opponentScaled writes toOpponent(scaled(img, s)) into out, with the same
+// opponentScaled writes ToOpponent(scaled(img, s)) into out, with the same
 // roundings and no intermediate copy.
 func opponentScaled(img, out *patches.Image, s float64) {
 	r, g, b := img.Plane(0), img.Plane(1), img.Plane(2)
@@ -70,7 +70,7 @@ func opponentScaled(img, out *patches.Image, s float64) {
 	}
 }
 
-// fromOpponentScaled is scaled(fromOpponent(img), s) in place.
+// fromOpponentScaled is scaled(FromOpponent(img), s) in place.
 func fromOpponentScaled(img *patches.Image, s float64) {
 	a, b, c := img.Plane(0), img.Plane(1), img.Plane(2)
 	s3, s2, s6 := math.Sqrt(3), math.Sqrt2, math.Sqrt(6)

@@ -55,7 +55,7 @@ func Train(n int, image func(i int) (*patches.Image, float64, error), opt Option
 		// opponent channels one by one.
 		srcs := []*patches.Image{img}
 		if img.C > 1 && opt.Color == ColorSeparate {
-			op := toOpponent(scaled(img, scale))
+			op := ToOpponent(scaled(img, scale))
 			scale = 1
 			srcs = srcs[:0]
 			for c := 0; c < op.C; c++ {

@@ -192,7 +192,7 @@ func DenoiseParams(img *patches.Image, sigma float64, opt restore.Options, pr Pa
 		// block matching does (Dabov et al. 2007b).
 		sep := work
 		if img.C == 3 {
-			sep = toOpponent(work)
+			sep = restore.ToOpponent(work)
 		}
 		chans := make([]*patches.Image, img.C)
 		for c := range chans {
@@ -204,7 +204,7 @@ func DenoiseParams(img *patches.Image, sigma float64, opt restore.Options, pr Pa
 			copy(out.Plane(c), outs[c].Pix)
 		}
 		if img.C == 3 {
-			out = fromOpponent(out)
+			out = restore.FromOpponent(out)
 		}
 		res.Dict, res.MeanAtoms = dicts[len(dicts)-1], atoms
 	} else {
@@ -340,36 +340,6 @@ func scaled(img *patches.Image, s float64) *patches.Image {
 	}
 	for i, v := range out.Pix {
 		out.Pix[i] = float32(float64(v) * s)
-	}
-	return out
-}
-
-// toOpponent is restore's orthonormal opponent transform
-// (R+G+B)/√3, (R−B)/√2, (R−2G+B)/√6, which keeps white noise white with the
-// same σ in every channel.
-func toOpponent(img *patches.Image) *patches.Image {
-	out := patches.New(img.W, img.H, 3, img.Depth)
-	r, g, b := img.Plane(0), img.Plane(1), img.Plane(2)
-	o0, o1, o2 := out.Plane(0), out.Plane(1), out.Plane(2)
-	for i := range r {
-		R, G, B := float64(r[i]), float64(g[i]), float64(b[i])
-		o0[i] = float32((R + G + B) / math.Sqrt(3))
-		o1[i] = float32((R - B) / math.Sqrt2)
-		o2[i] = float32((R - 2*G + B) / math.Sqrt(6))
-	}
-	return out
-}
-
-func fromOpponent(img *patches.Image) *patches.Image {
-	out := patches.New(img.W, img.H, 3, img.Depth)
-	a, b, c := img.Plane(0), img.Plane(1), img.Plane(2)
-	r, g, bl := out.Plane(0), out.Plane(1), out.Plane(2)
-	s3, s2, s6 := math.Sqrt(3), math.Sqrt2, math.Sqrt(6)
-	for i := range a {
-		A, B, C := float64(a[i]), float64(b[i]), float64(c[i])
-		r[i] = float32(A/s3 + B/s2 + C/s6)
-		g[i] = float32(A/s3 - 2*C/s6)
-		bl[i] = float32(A/s3 - B/s2 + C/s6)
 	}
 	return out
 }
