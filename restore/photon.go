@@ -19,6 +19,16 @@ import (
 // opt is used as by Denoise; a bad alpha or sigma is an *OptionError with
 // Field "gain" or "read-noise".
 func DenoisePhoton(img *patches.Image, alpha, sigma float64, opt Options) (*patches.Image, *Result, error) {
+	return DenoisePhotonWith(img, alpha, sigma, opt, Denoise)
+}
+
+// Denoiser restores an image degraded by white Gaussian noise of standard
+// deviation sigma in the image's units, as Denoise does.
+type Denoiser func(img *patches.Image, sigma float64, opt Options) (*patches.Image, *Result, error)
+
+// DenoisePhotonWith is DenoisePhoton with another Gaussian denoiser in the
+// stabilised domain (the group method, for one).
+func DenoisePhotonWith(img *patches.Image, alpha, sigma float64, opt Options, den Denoiser) (*patches.Image, *Result, error) {
 	switch {
 	case !(alpha > 0) || math.IsInf(alpha, 0):
 		return nil, nil, &OptionError{"gain", fmt.Sprintf("the gain α must be a positive number of image units per photon, got %g", alpha)}
@@ -41,7 +51,7 @@ func DenoisePhoton(img *patches.Image, alpha, sigma float64, opt Options) (*patc
 	for i, v := range d.Pix {
 		work.Pix[i] = float32((float64(v) - lo) * s)
 	}
-	out, res, err := Denoise(work, s, opt)
+	out, res, err := den(work, s, opt)
 	if err != nil {
 		return nil, nil, err
 	}

@@ -421,6 +421,7 @@ func (b *batch) denoise(j *job, f *imgfile.File, slot int, rec *record) (*patche
 		return nil, restoreErr(j.name, err)
 	}
 	rec.MeanAtoms = ptr(round4(res.MeanAtoms))
+	rec.Method = b.cfg.method
 	return out, nil
 }
 

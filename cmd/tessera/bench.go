@@ -23,6 +23,7 @@ import (
 	"tessera/learn"
 	"tessera/patches"
 	"tessera/restore"
+	"tessera/restore/group"
 	"tessera/restore/quality"
 )
 
@@ -58,8 +59,11 @@ sorted by relative path (write ./kodak for a folder named kodak).
 Kodak set, kodim01.png is 1), --limit N the first N.
 
 Methods: ksvd is the dictionary learned from each noisy image (K-SVD,
-started from the overcomplete DCT); --compare dct adds the same coding with
-the fixed overcomplete DCT (no training), which shows what learning adds.
+started from the overcomplete DCT), every patch coded alone; group groups
+similar patches and codes each group with one set of atoms (--method group
+of tessera denoise); dct is the ksvd coding with the fixed overcomplete DCT
+(no training), which shows what learning adds. --method picks the first
+method, --compare adds others: --compare dct,group runs all three.
 
 Output: a Markdown table on standard output (a row per image, σ and
 method; a mean row per σ and method), --json FILE and --csv FILE with the
@@ -70,12 +74,6 @@ learned atoms, each scaled to its own range. The page needs no network.
 
 Exit status: 0 when every image was measured, 1 when any failed (the
 others still run) or the set could not be had, 2 for a bad command line.`
-
-// Method names of the table and the JSON.
-const (
-	methodLearned = "ksvd"
-	methodDCT     = "dct"
-)
 
 // benchConfig is the parsed command line of tessera bench.
 type benchConfig struct {
@@ -109,7 +107,8 @@ func benchCommand(e *env) *cli.Command {
 			&cli.BoolFlag{Name: "color", DisableDefaultText: true, Usage: "restore RGB images in colour (default: their BT.601 luma, rounded)"},
 			&cli.IntFlag{Name: "limit", DefaultText: "all", Usage: "use the first `N` images only"},
 			&cli.StringFlag{Name: "images", Usage: "use the images at positions `LIST` only, e.g. 1,5,23 (1 is the first)"},
-			&cli.StringFlag{Name: "compare", Usage: "also run `dct`: the same coding with the fixed overcomplete DCT, untrained"},
+			&cli.StringFlag{Name: "method", Value: methodLearned, Usage: "measure method `ksvd|group` (see tessera denoise --method)"},
+			&cli.StringFlag{Name: "compare", Usage: "also run the methods in `LIST`, comma-separated: dct (the ksvd coding with the fixed overcomplete DCT, untrained), group, ksvd"},
 			&cli.IntFlag{Name: "patch", Value: helpDefaults.Patch, Usage: "patch side `N` in pixels, 2..32"},
 			&cli.IntFlag{Name: "atoms", Value: helpDefaults.Atoms, Usage: "`N` dictionary atoms, 1..4096"},
 			&cli.IntFlag{Name: "rounds", Value: helpDefaults.Rounds, Usage: "`N` K-SVD training rounds, 0..1000 (0 codes with the starting DCT dictionary)"},
@@ -144,7 +143,6 @@ func parseBenchConfig(cc *cli.Context) (*benchConfig, error) {
 		},
 		set: cc.String("set"), setURL: cc.String("set-url"),
 		color: cc.Bool("color"), limit: cc.Int("limit"),
-		methods: []string{methodLearned},
 		jsonOut: cc.String("json"), csvOut: cc.String("csv"), htmlDir: cc.String("html"),
 	}
 	if c.set == "" {
@@ -169,15 +167,20 @@ func parseBenchConfig(cc *cli.Context) (*benchConfig, error) {
 			return nil, err
 		}
 	}
+	first, err := parseMethod(cc.String("method"))
+	if err != nil {
+		return nil, err
+	}
+	c.methods = []string{first}
 	if cc.IsSet("compare") {
 		for _, m := range strings.Split(cc.String("compare"), ",") {
 			switch m = strings.TrimSpace(strings.ToLower(m)); m {
-			case methodDCT:
+			case methodDCT, methodGroup, methodLearned:
 				if !hasMethod(c.methods, m) {
 					c.methods = append(c.methods, m)
 				}
 			default:
-				return nil, usagef("--compare %q: unknown method; the one available is dct (the fixed overcomplete DCT)", m)
+				return nil, usagef("--compare %q: unknown method; choose among dct, group and ksvd", m)
 			}
 		}
 	}
@@ -548,7 +551,7 @@ func (cfg *benchConfig) benchImage(en benchEntry, con *console, workers int, pic
 				}
 				row.restored = append(row.restored, displayCrop(out, sh.x0, sh.y0, sh.side))
 				row.psnr = append(row.psnr, r.PSNR)
-				if m == methodLearned && opt.Rounds > 0 {
+				if (m == methodLearned || m == methodGroup) && opt.Rounds > 0 && row.dict == nil {
 					row.dict = dict
 				}
 			}
@@ -568,8 +571,12 @@ func benchCase(clean *patches.Image, name string, sigma255 float64, seed uint64,
 		opt.Rounds = 0
 		opt.Dict = nil
 	}
+	den := restore.Denoise
+	if method == methodGroup {
+		den = group.Denoise
+	}
 	t0 := time.Now()
-	out, res, err := restore.Denoise(noisy, sigma, opt)
+	out, res, err := den(noisy, sigma, opt)
 	dt := time.Since(t0).Seconds()
 	if err != nil {
 		var oe *restore.OptionError

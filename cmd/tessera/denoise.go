@@ -59,6 +59,8 @@ type config struct {
 	format    string // "", "png", "tiff" or "pgm"
 	maxPixels int64
 
+	method string // methodLearned or methodGroup
+
 	dictConfig // --dict and --tile (learncmd.go)
 	batchHooks // what other batch commands change (batch.go)
 }
@@ -100,6 +102,15 @@ const denoiseDescription = `Removes white Gaussian noise from each image: learns
 patches from the noisy image itself (K-SVD), codes every overlapping patch
 with orthogonal matching pursuit down to the error bound n·(C·σ)², and
 averages the patches back.
+
+--method group codes similar patches together instead: for each reference
+patch on a grid, up to 16 of the most similar patches within a 21×21
+window form a group, coded with one set of atoms (simultaneous OMP) over a
+dictionary learned on the groups, each patch keeping its own coefficients
+(after Mairal et al. 2009). On the Kodak set it gains 0.3–0.5 dB over
+ksvd at 2.5–3 times the time (README). --bound, --atoms, --patch, --train
+and --rounds apply to both methods; past --tile the group method runs on
+overlapping tiles, each learning its own dictionary.
 
 --noise poisson is for photon-limited frames, z = α·Poisson(y/α) + N(0, σ²)
 with gain α (--gain) and read noise σ (--read-noise), both estimated per
@@ -169,7 +180,7 @@ func denoiseCommand(e *env) *cli.Command {
 			&cli.BoolFlag{Name: "quiet", DisableDefaultText: true, Usage: "print failures only: no progress bar, no summary line"},
 			&cli.StringFlag{Name: "format", Usage: "write `png|tiff|pgm` (pgm: P5 .pgm for gray, P6 .ppm for colour); default: the input's format"},
 			&cli.StringFlag{Name: "max-pixels", Value: "1e9", DefaultText: "1e9", Usage: "refuse images of more than `N` pixels, read from the header before decoding (0: no limit)"},
-			dictFlag, tileFlag,
+			methodFlag, dictFlag, tileFlag,
 		},
 		Action: func(cc *cli.Context) error {
 			cfg, err := parseConfig(cc, e)
@@ -218,6 +229,9 @@ func parseConfig(cc *cli.Context, e *env) (*config, error) {
 		return nil, err
 	}
 	if err := c.parseNoise(cc); err != nil {
+		return nil, err
+	}
+	if c.method, err = parseMethod(cc.String("method")); err != nil {
 		return nil, err
 	}
 	if cc.IsSet("sigma") {

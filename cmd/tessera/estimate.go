@@ -102,7 +102,7 @@ func (c *config) denoiseImage(img *patches.Image, sigma float64, opt restore.Opt
 	if peak := img.Peak(); read >= peak {
 		return nil, nil, fmt.Errorf("read noise %g is not below the %d-bit peak %g; give --read-noise in the image's own units", read, img.Depth, peak)
 	}
-	return restore.DenoisePhoton(img, gain, read, opt)
+	return restore.DenoisePhotonWith(img, gain, read, opt, c.gaussDenoise)
 }
 
 // parseNoise reads --noise, --gain and --read-noise.

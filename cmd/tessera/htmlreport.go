@@ -36,6 +36,8 @@ func methodLabel(m string) string {
 		return "K-SVD, learned"
 	case methodDCT:
 		return "DCT, fixed"
+	case methodGroup:
+		return "groups, learned"
 	}
 	return m
 }

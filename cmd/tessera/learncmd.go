@@ -17,6 +17,7 @@ import (
 	"tessera/learn/dictfile"
 	"tessera/patches"
 	"tessera/restore"
+	"tessera/restore/group"
 )
 
 const learnDescription = `Learns one dictionary of patches (K-SVD, started from an overcomplete DCT)
@@ -372,16 +373,25 @@ func (c *config) applyDict(o *restore.Options) {
 	}
 }
 
-// gaussDenoise restores one image with restore.Denoise, or DenoiseTiled
-// when a side exceeds --tile; a stored dictionary must have been learned on
-// images with the image's channels (restore checks the atom length too).
+// gaussDenoise restores one image with the chosen method: restore.Denoise
+// (or DenoiseTiled when a side exceeds --tile), or the group method (on
+// overlapping tiles past --tile). A stored dictionary must have been
+// learned on images with the image's channels (restore checks the atom
+// length too).
 func (c *config) gaussDenoise(img *patches.Image, sigma float64, opt restore.Options) (*patches.Image, *restore.Result, error) {
 	if d, k := c.dict, c.dictImgC; d != nil && k > 0 && k != img.C {
 		return nil, nil, &restore.OptionError{Field: "dict", Reason: fmt.Sprintf(
 			"the dictionary %s was learned on %s images (%d channel%s) but this image is %s (%d channel%s); learn one on %s images",
 			c.dictPath, chanWord(k), k, plural(k), chanWord(img.C), img.C, plural(img.C), chanWord(img.C))}
 	}
-	if c.tile > 0 && (img.W > c.tile || img.H > c.tile) {
+	large := c.tile > 0 && (img.W > c.tile || img.H > c.tile)
+	if c.method == methodGroup {
+		if large {
+			return restore.DenoiseOverlapped(img, sigma, c.tile, group.TileMargin(opt.Patch), opt, group.Denoise)
+		}
+		return group.Denoise(img, sigma, opt)
+	}
+	if large {
 		return restore.DenoiseTiled(img, sigma, c.tile, opt)
 	}
 	return restore.Denoise(img, sigma, opt)

@@ -41,7 +41,8 @@ type record struct {
 	Channels           *int      `json:"channels"`
 	BitDepth           *int      `json:"bit_depth"`
 	Alpha              *bool     `json:"alpha"`
-	Format             string    `json:"format"` // format written, "" if none
+	Format             string    `json:"format"`           // format written, "" if none
+	Method             string    `json:"method,omitempty"` // tessera denoise's --method
 	MeanAtoms          *float64  `json:"mean_atoms"`
 	Seconds            float64   `json:"seconds"`
 	*Inpainting                  // tessera inpaint's keys; nil for denoise

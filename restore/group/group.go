@@ -92,6 +92,11 @@ func DefaultParams(sigma255 float64) Params {
 	}
 }
 
+// TileMargin is the overlap that restore.DenoiseOverlapped needs around
+// each tile for the group method with p×p patches: a patch and a search
+// radius, so that every pixel kept from a tile was grouped as in a whole run.
+func TileMargin(p int) int { return p + DefaultParams(25).Window/2 }
+
 // boundScale is the bound scale of channel c in the first pass.
 func (pr *Params) boundScale(c int) float64 {
 	if c > 0 && pr.ChromaScale > 0 {
