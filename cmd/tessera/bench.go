@@ -111,7 +111,7 @@ func benchCommand(e *env) *cli.Command {
 		OnUsageError: func(_ *cli.Context, err error, _ bool) error {
 			return usagef("%s; see tessera bench --help", flagErrText(err))
 		},
-		Flags: []cli.Flag{
+		Flags: flagList([]cli.Flag{
 			&cli.StringFlag{Name: "set", Value: "kodak", Usage: "the clean images, `kodak|FOLDER`: the cached Kodak set (downloaded when missing) or a folder"},
 			&cli.StringFlag{Name: "set-url", Usage: "download the Kodak set from `URL` (the folder holding kodim01.png …); default $" + kodakURLEnv + " or " + defaultKodakURL},
 			&cli.StringFlag{Name: "sigma", Value: "15,25,50", Usage: "noise levels `LIST`, comma-separated, on the 0–255 scale"},
@@ -122,16 +122,11 @@ func benchCommand(e *env) *cli.Command {
 			&cli.StringFlag{Name: "holes", Value: "50%,80%,text", Usage: "with --task inpaint, the holes `LIST`: N% (random loss of N percent of the pixels) or text (lines of overlaid text)"},
 			&cli.StringFlag{Name: "method", Value: methodLearned, Usage: "measure method `ksvd|group` (see tessera denoise --method)"},
 			&cli.StringFlag{Name: "compare", Usage: "also run the methods in `LIST`, comma-separated: dct (the ksvd coding with the fixed overcomplete DCT, untrained), group, ksvd"},
-			&cli.IntFlag{Name: "patch", Value: helpDefaults.Patch, Usage: "patch side `N` in pixels, 2..32"},
-			&cli.IntFlag{Name: "atoms", Value: helpDefaults.Atoms, Usage: "`N` dictionary atoms, 1..4096"},
-			&cli.IntFlag{Name: "rounds", Value: helpDefaults.Rounds, Usage: "`N` K-SVD training rounds, 0..1000 (0 codes with the starting DCT dictionary)"},
-			&cli.Float64Flag{Name: "bound", Value: helpDefaults.Bound, Usage: "factor `C` of the coding error bound n·(C·σ)²"},
-			&cli.IntFlag{Name: "train", Value: helpDefaults.Train, Usage: "`N` training patches drawn from each image, at least --atoms"},
-			&cli.Uint64Flag{Name: "seed", Value: helpDefaults.Seed, Usage: "`N` seeds the noise and the training choices"},
+		}, codingFlags(helpDefaults, "", "", "the noise and the training choices"), []cli.Flag{
 			&cli.StringFlag{Name: "json", Usage: "also write the figures as JSON to `FILE`"},
 			&cli.StringFlag{Name: "csv", Usage: "also write one CSV row per run to `FILE`"},
 			&cli.StringFlag{Name: "html", Usage: "write a report page into `DIR` (index.html and images/)"},
-		},
+		}),
 		Action: func(cc *cli.Context) error {
 			cfg, err := parseBenchConfig(cc)
 			if err != nil {

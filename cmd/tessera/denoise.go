@@ -160,28 +160,14 @@ func denoiseCommand(e *env) *cli.Command {
 		Description:     denoiseDescription,
 		HideHelpCommand: true,
 		OnUsageError:    onUsageError,
-		Flags: []cli.Flag{
-			&cli.StringFlag{Name: "out", Usage: "write to `DIR|FILE|-`: a folder (input folders are mirrored under it), one output file, or - for standard output"},
+		Flags: flagList([]cli.Flag{
+			outFlag,
 			&cli.StringFlag{Name: "sigma", Usage: "noise standard deviation `N` in the image's own units (0..255 for 8-bit, 0..65535 for 16-bit)" + sigmaHelp()},
 			&cli.StringFlag{Name: "noise", Value: noiseGauss, Usage: "noise model `gauss|poisson`: white Gaussian, or photon-limited α·Poisson(y/α) + N(0, σ²)"},
 			&cli.StringFlag{Name: "gain", Usage: "photon gain `A` (α) in image units per photon (--noise poisson); estimated per image when omitted"},
 			&cli.StringFlag{Name: "read-noise", Usage: "read noise `S` (σ) in the image's own units (--noise poisson); estimated per image when omitted"},
-			&cli.IntFlag{Name: "patch", Value: helpDefaults.Patch, Usage: "patch side `N` in pixels, 2..32"},
-			&cli.IntFlag{Name: "atoms", Value: helpDefaults.Atoms, Usage: "`N` dictionary atoms, 1..4096"},
-			&cli.IntFlag{Name: "rounds", Value: helpDefaults.Rounds, Usage: "`N` K-SVD training rounds, 0..1000 (0 codes with the starting DCT dictionary)"},
-			&cli.Float64Flag{Name: "bound", Value: helpDefaults.Bound, Usage: "factor `C` of the coding error bound n·(C·σ)²"},
-			&cli.IntFlag{Name: "train", Value: helpDefaults.Train, Usage: "`N` training patches drawn from each image, at least --atoms"},
-			&cli.Uint64Flag{Name: "seed", Value: helpDefaults.Seed, Usage: "`N` seeds the random choices; each image's seed derives from it and the image's path"},
-			&cli.IntFlag{Name: "jobs", Value: 1, Usage: "process `N` images at once; each gets NumCPU/N threads"},
-			&cli.StringFlag{Name: "report", Usage: "write one JSON line per input to `FILE` (- for standard output); replaced on each run"},
-			&cli.BoolFlag{Name: "force", DisableDefaultText: true, Usage: "redo outputs that already exist (without it a rerun skips them)"},
-			&cli.StringFlag{Name: "shard", Usage: "process share `K/N` of the sorted image list (1 <= K <= N), or auto: take it from a job array"},
-			&cli.StringFlag{Name: "shard-count", Usage: "`N` shares for --shard auto (needed with a Kubernetes Indexed Job)"},
-			&cli.BoolFlag{Name: "quiet", DisableDefaultText: true, Usage: "print failures only: no progress bar, no summary line"},
-			&cli.StringFlag{Name: "format", Usage: "write `png|tiff|pgm` (pgm: P5 .pgm for gray, P6 .ppm for colour); default: the input's format"},
-			&cli.StringFlag{Name: "max-pixels", Value: "1e9", DefaultText: "1e9", Usage: "refuse images of more than `N` pixels, read from the header before decoding (0: no limit)"},
-			methodFlag, dictFlag, tileFlag,
-		},
+			methodFlag,
+		}, codingFlags(helpDefaults, "", "", pathSeed), batchFlags("images"), []cli.Flag{dictFlag, tileFlag}),
 		Action: func(cc *cli.Context) error {
 			cfg, err := parseConfig(cc, e)
 			if err != nil {

@@ -75,28 +75,14 @@ func inpaintCommand(e *env) *cli.Command {
 		OnUsageError: func(_ *cli.Context, err error, _ bool) error {
 			return usagef("%s; see tessera inpaint --help", flagErrText(err))
 		},
-		Flags: []cli.Flag{
-			&cli.StringFlag{Name: "out", Usage: "write to `DIR|FILE|-`: a folder (input folders are mirrored under it), one output file, or - for standard output"},
+		Flags: flagList([]cli.Flag{
+			outFlag,
 			&cli.StringFlag{Name: "mask", Usage: "the missing pixels: `FILE|DIR`, one mask image for all inputs or a folder of masks at the inputs' relative paths"},
 			&cli.StringFlag{Name: "mask-suffix", Usage: "the missing pixels: each input's mask lies beside it, named with `SUFFIX` added (frame.png → frame_mask.png for _mask)"},
 			&cli.StringFlag{Name: "missing-value", Usage: "the missing pixels: those equal to `V` in every channel (0..65535, in the image's own units)"},
 			&cli.StringFlag{Name: "sigma", Usage: "noise standard deviation `N` in the image's own units, or auto to estimate it per image; denoises the known pixels too (without it they are kept exactly)"},
 			&cli.IntFlag{Name: "passes", Value: 5, Usage: "`N` sparse passes over the holes, 1..1000"},
-			&cli.IntFlag{Name: "patch", Value: inpaintHelpDefaults.Patch, Usage: "patch side `N` in pixels, 2..32"},
-			&cli.IntFlag{Name: "atoms", Value: inpaintHelpDefaults.Atoms, Usage: "`N` dictionary atoms, 1..4096"},
-			&cli.IntFlag{Name: "rounds", Value: inpaintHelpDefaults.Rounds, Usage: "`N` K-SVD training rounds on the known pixels, 0..1000 (0 codes with the starting DCT dictionary)"},
-			&cli.Float64Flag{Name: "bound", Value: inpaintHelpDefaults.Bound, Usage: "factor `C` of the coding error bound n·(C·σ)² (σ at least 1.5 on the 8-bit scale)"},
-			&cli.IntFlag{Name: "train", Value: inpaintHelpDefaults.Train, Usage: "`N` training patches drawn from each image, at least --atoms"},
-			&cli.Uint64Flag{Name: "seed", Value: inpaintHelpDefaults.Seed, Usage: "`N` seeds the random choices; each image's seed derives from it and the image's path"},
-			&cli.IntFlag{Name: "jobs", Value: 1, Usage: "process `N` images at once; each gets NumCPU/N threads"},
-			&cli.StringFlag{Name: "report", Usage: "write one JSON line per input to `FILE` (- for standard output); replaced on each run"},
-			&cli.BoolFlag{Name: "force", DisableDefaultText: true, Usage: "redo outputs that already exist (without it a rerun skips them)"},
-			&cli.StringFlag{Name: "shard", Usage: "process share `K/N` of the sorted image list (1 <= K <= N), or auto: take it from a job array"},
-			&cli.StringFlag{Name: "shard-count", Usage: "`N` shares for --shard auto (needed with a Kubernetes Indexed Job)"},
-			&cli.BoolFlag{Name: "quiet", DisableDefaultText: true, Usage: "print failures only: no progress bar, no summary line"},
-			&cli.StringFlag{Name: "format", Usage: "write `png|tiff|pgm` (pgm: P5 .pgm for gray, P6 .ppm for colour); default: the input's format"},
-			&cli.StringFlag{Name: "max-pixels", Value: "1e9", DefaultText: "1e9", Usage: "refuse images and masks of more than `N` pixels, read from the header before decoding (0: no limit)"},
-		},
+		}, codingFlags(inpaintHelpDefaults, " on the known pixels", " (σ at least 1.5 on the 8-bit scale)", pathSeed), batchFlags("images and masks")),
 		Action: func(cc *cli.Context) error {
 			cfg, err := parseInpaint(cc, e)
 			if err != nil {
