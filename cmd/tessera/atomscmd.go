@@ -11,6 +11,7 @@ import (
 	"github.com/urfave/cli/v2"
 
 	"tessera/cmd/tessera/internal/imgfile"
+	"tessera/learn"
 	"tessera/learn/dictfile"
 	"tessera/patches"
 )
@@ -112,17 +113,38 @@ func atomOrder(f *dictfile.File) []int {
 // drawAtoms lays the atoms out in a near-square grid of cells p·scale
 // pixels wide, separated and framed by one-pixel white lines.
 func drawAtoms(f *dictfile.File, scale int) *patches.Image {
-	d := f.Dict
+	img := layAtoms(f.Dict, atomOrder(f), scale)
+	for i, v := range img.Pix {
+		if v != v {
+			img.Pix[i] = 255
+		}
+	}
+	return img
+}
+
+// layAtoms draws the atoms of d in the given order (nil: their own) in a
+// near-square grid of cells p·scale pixels wide, one-pixel lines between
+// and around them, each atom scaled from its own minimum (0) to its
+// maximum (255), a flat one at 128. The lines and the empty cells are NaN,
+// for the caller to paint.
+func layAtoms(d *learn.Dict, order []int, scale int) *patches.Image {
 	p, c := d.Patch, d.Channels
+	if order == nil {
+		order = make([]int, d.K)
+		for i := range order {
+			order[i] = i
+		}
+	}
 	cols := int(math.Ceil(math.Sqrt(float64(d.K))))
 	rows := (d.K + cols - 1) / cols
 	cell := p*scale + 1
 	img := patches.New(cols*cell+1, rows*cell+1, c, 8)
+	nan := float32(math.NaN())
 	for i := range img.Pix {
-		img.Pix[i] = 255
+		img.Pix[i] = nan
 	}
 	wh := img.W * img.H
-	for slot, k := range atomOrder(f) {
+	for slot, k := range order {
 		a := d.Atom(k)
 		lo, hi := a[0], a[0]
 		for _, v := range a {

@@ -279,43 +279,20 @@ func atomsPicture(d *learn.Dict) *patches.Image {
 	if d == nil || d.Patch < 1 || d.Channels < 1 || d.N != d.Channels*d.Patch*d.Patch || len(d.Atoms) != d.N*d.K {
 		return nil
 	}
-	p, ch := d.Patch, d.Channels
-	cols := int(math.Ceil(math.Sqrt(float64(d.K))))
-	rows := (d.K + cols - 1) / cols
-	cell := p + 1
-	w0, h0 := cols*cell+1, rows*cell+1
-	z := max(1, 300/w0)
-	img := patches.New(w0*z, h0*z, 3, 8)
-	bg := [3]float32{float32(pagePaper.R), float32(pagePaper.G), float32(pagePaper.B)}
+	g := layAtoms(d, nil, 1)
+	z := max(1, 300/g.W)
+	img := patches.New(g.W*z, g.H*z, 3, 8)
+	paper := [3]float32{float32(pagePaper.R), float32(pagePaper.G), float32(pagePaper.B)}
+	gwh := g.W * g.H
 	for c := 0; c < 3; c++ {
-		pl := img.Plane(c)
-		for i := range pl {
-			pl[i] = bg[c]
-		}
-	}
-	for k := 0; k < d.K; k++ {
-		a := d.Atoms[k*d.N : (k+1)*d.N]
-		lo, hi := a[0], a[0]
-		for _, v := range a {
-			lo, hi = math.Min(lo, v), math.Max(hi, v)
-		}
-		span := hi - lo
-		gx, gy := (k%cols)*cell+1, (k/cols)*cell+1
-		for y := 0; y < p; y++ {
-			for x := 0; x < p; x++ {
-				for c := 0; c < 3; c++ {
-					v := a[(c%ch)*p*p+y*p+x]
-					g := 128.0
-					if span > 0 {
-						g = math.Floor(255*(v-lo)/span + 0.5)
-					}
-					pl := img.Plane(c)
-					for dy := 0; dy < z; dy++ {
-						for dx := 0; dx < z; dx++ {
-							pl[((gy+y)*z+dy)*img.W+(gx+x)*z+dx] = float32(g)
-						}
-					}
+		src, pl := g.Pix[(c%d.Channels)*gwh:], img.Plane(c)
+		for y := range img.H {
+			for x := range img.W {
+				v := src[(y/z)*g.W+x/z]
+				if v != v {
+					v = paper[c]
 				}
+				pl[y*img.W+x] = v
 			}
 		}
 	}
