@@ -2,6 +2,7 @@ package learn
 
 import (
 	"math"
+	"slices"
 	"sort"
 
 	"gonum.org/v1/gonum/mat"
@@ -258,6 +259,74 @@ func signalOf(codes *Codes, pos []int32) []int {
 	return sig
 }
 
+// worstFirst returns the indices of the c largest errs, largest first,
+// ties by index: the first c of a stable sort by decreasing error, found
+// by selection in O(m) and a sort of those c alone.
+func worstFirst(errs []float64, c int) []int {
+	m := len(errs)
+	if c >= m {
+		order := make([]int, m)
+		for i := range order {
+			order[i] = i
+		}
+		sort.SliceStable(order, func(a, b int) bool { return errs[order[a]] > errs[order[b]] })
+		return order
+	}
+	v := slices.Clone(errs)
+	// v[c-1] after partial selection is the c-th largest value.
+	t := nthLargest(v, c-1)
+	order := make([]int, 0, c)
+	for i, e := range errs {
+		if e > t {
+			order = append(order, i)
+		}
+	}
+	for i, e := range errs {
+		if len(order) == c {
+			break
+		}
+		if e == t {
+			order = append(order, i)
+		}
+	}
+	sort.SliceStable(order, func(a, b int) bool { return errs[order[a]] > errs[order[b]] })
+	return order
+}
+
+// nthLargest reorders v so that v[k] is the (k+1)-th largest value and
+// returns it (Hoare's selection, median-of-three pivots).
+func nthLargest(v []float64, k int) float64 {
+	lo, hi := 0, len(v)-1
+	for lo < hi {
+		mid := lo + (hi-lo)/2
+		a, b, c := v[lo], v[mid], v[hi]
+		p := max(min(a, b), min(max(a, b), c))
+		i, j := lo, hi
+		for i <= j {
+			for v[i] > p {
+				i++
+			}
+			for v[j] < p {
+				j--
+			}
+			if i <= j {
+				v[i], v[j] = v[j], v[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return v[k]
+		}
+	}
+	return v[k]
+}
+
 // replaceAtoms swaps unused atoms, and atoms that nearly repeat an earlier
 // one, for the worst-represented signals (largest residual), normalised.
 func replaceAtoms(d *Dict, unused []bool, X, R []float64, m int) int {
@@ -267,11 +336,19 @@ func replaceAtoms(d *Dict, unused []bool, X, R []float64, m int) int {
 		r := R[i*n : (i+1)*n]
 		errs[i] = dot(r, r)
 	}
-	order := make([]int, m)
-	for i := range order {
-		order[i] = i
+	// The worst signals in order of error (ties by index), sorted only
+	// when an atom needs replacing, and then only as far as needed: most
+	// rounds replace none or a few of the k atoms.
+	var order []int
+	worst := func(next int) int {
+		if order == nil || (next == len(order) && len(order) < m) {
+			order = worstFirst(errs, min(m, max(2*len(order), k)))
+		}
+		if next >= len(order) {
+			return -1
+		}
+		return order[next]
 	}
-	sort.SliceStable(order, func(a, b int) bool { return errs[order[a]] > errs[order[b]] })
 	next := 0
 	replaced := 0
 	for j := 0; j < k; j++ {
@@ -289,7 +366,11 @@ func replaceAtoms(d *Dict, unused []bool, X, R []float64, m int) int {
 			continue
 		}
 		for next < m {
-			x := X[order[next]*n : (order[next]+1)*n]
+			w := worst(next)
+			if w < 0 {
+				break
+			}
+			x := X[w*n : (w+1)*n]
 			next++
 			s := dot(x, x)
 			if s > 0 {
