@@ -16,7 +16,8 @@ const (
 
 // InpaintDefaults are the options of Inpaint: those of Defaults with a
 // lighter training (8000 patches, 5 rounds), measured within 0.3 dB of the
-// denoising settings on Kodak crops at under half the time.
+// denoising settings on Kodak crops at under half the time. The training
+// applies to the dictionary fill only (noisy images, or opt.Dict set).
 func InpaintDefaults(sigma255 float64) Options {
 	o := Defaults(sigma255)
 	o.Train, o.Rounds = 8000, 5
@@ -38,19 +39,32 @@ const (
 	// filledWeight is the weight of a filled pixel, against 1 for an
 	// observed one, when a pass codes the patches around it.
 	// knownPerAtom is how many observed samples each atom of a code needs.
-	// defaultPasses is the number of sparse passes over the holes.
+	// defaultPasses is the number of passes over the holes: sparse coding
+	// passes, or passes of itersPerPass thresholding iterations.
 	defaultPasses = 5
 )
 
-// Inpaint fills the pixels where missing[y*W+x] is set (all channels),
-// following Mairal, Elad & Sapiro (2008): K-SVD on the known pixels only,
-// with atoms restricted to each patch's known entries and renormalised;
-// then every patch that touches a hole is coded and averaged back. The
-// holes start from a harmonic (Laplace) guess, so that holes wider than a
-// patch close too, and opt.Passes sparse passes refine them, each coding
-// around the last one's fill with that fill weighted below observed
-// pixels. With sigma = 0 the known pixels are kept exactly; with sigma > 0
-// (image units) they are denoised too.
+// Inpaint fills the pixels where missing[y*W+x] is set (all channels).
+// The holes start from a harmonic (Laplace) guess, so that holes wider than
+// a patch close too, and opt.Passes passes refine them.
+//
+// opt.Fill chooses the method; by default (FillAuto) it is the first below
+// for noise-free images without opt.Dict, the second otherwise.
+//
+// FillTransform: the known pixels are kept exactly and
+// the passes hard-threshold the 2-D DCT of every patch around a hole with
+// a falling threshold (iterated denoising, Guleryuz 2006). On the 12 Kodak
+// crops of the tests this beat the dictionary fill below 9 times, by up to
+// 1.9 dB, and fell at most 0.05 dB short on the foliage crop (kodim13), in
+// about a tenth of the time; opt.Atoms, Rounds, Train and Bound do not
+// apply.
+//
+// FillDictionary, which also takes sigma > 0 (image units; the known
+// pixels are then denoised too) and a dictionary in opt.Dict, follows Mairal, Elad & Sapiro (2008):
+// K-SVD on the known pixels only, with atoms restricted to each patch's
+// known entries and renormalised; then every patch that touches a hole is
+// coded and averaged back, each pass coding around the last one's fill
+// with that fill weighted below observed pixels.
 func Inpaint(img *patches.Image, missing []bool, sigma float64, opt Options) (*patches.Image, *InpaintResult, error) {
 	if len(missing) != img.W*img.H {
 		return nil, nil, &OptionError{"mask", fmt.Sprintf("the mask has %d pixels, the image %d×%d", len(missing), img.W, img.H)}
@@ -61,6 +75,21 @@ func Inpaint(img *patches.Image, missing []bool, sigma float64, opt Options) (*p
 	}
 	if err := opt.check(img, check); err != nil {
 		return nil, nil, err
+	}
+	fill := opt.Fill
+	if fill == FillAuto {
+		fill = FillTransform
+		if sigma > 0 || opt.Dict != nil {
+			fill = FillDictionary
+		}
+	}
+	switch {
+	case fill != FillTransform && fill != FillDictionary:
+		return nil, nil, &OptionError{"method", fmt.Sprintf("unknown fill method %d", fill)}
+	case fill == FillTransform && sigma > 0:
+		return nil, nil, &OptionError{"method", "the DCT fill keeps the known pixels as they are and takes no noise level; use the dictionary fill to denoise them too"}
+	case fill == FillTransform && opt.Dict != nil:
+		return nil, nil, &OptionError{"method", "the DCT fill uses no stored dictionary; use the dictionary fill with one"}
 	}
 	holes := 0
 	for _, m := range missing {
@@ -77,7 +106,13 @@ func Inpaint(img *patches.Image, missing []bool, sigma float64, opt Options) (*p
 	if holes == 0 && sigma == 0 {
 		return img.Clone(), &InpaintResult{}, nil
 	}
-	out, res := inpaintPlane(work, missing, s255, opt)
+	var out *patches.Image
+	var res *InpaintResult
+	if fill == FillTransform {
+		out, res = thresholdFill(work, missing, opt)
+	} else {
+		out, res = inpaintPlane(work, missing, s255, opt)
+	}
 	return scaled(out, 1/scale), res, nil
 }
 

@@ -100,11 +100,13 @@ func TestInpaintKeepsKnownPixels(t *testing.T) {
 	}
 }
 
-// On Kodak crops with seeded 50% and 80% loss the fill beats the harmonic
-// fill (by ≥ 1 dB at 50% loss). The published finding that the learned
-// dictionary beats the fixed DCT (Mairal, Elad & Sapiro 2008) holds here
-// only within a few tenths of a dB either way: asserted is that learning
-// costs at most 0.4 dB, and the table is printed.
+// On Kodak crops with seeded 50% and 80% loss the default (DCT
+// thresholding) fill beats the harmonic fill, by ≥ 2.5 dB at 50% loss and
+// ≥ 0.8 dB at 80% (measured: +3.1 to +5.2 and +1.0 to +3.5), and the masked
+// K-SVD fill of Mairal, Elad & Sapiro (2008) (FillDictionary) by ≥ 0.3 dB (measured +0.42 to +1.90). For that
+// dictionary fill the published finding that the learned dictionary beats
+// the fixed DCT holds only within a few tenths of a dB either way: asserted
+// is that learning costs it at most 0.4 dB. The table is printed.
 func TestInpaintKodakRandomLoss(t *testing.T) {
 	for _, name := range []string{"kodim03.png", "kodim19.png", "kodim23.png"} {
 		clean := centreCrop(kodakGray(t, name), 256, 256)
@@ -115,30 +117,36 @@ func TestInpaintKodakRandomLoss(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
+			opt.Fill = FillDictionary
+			learned, _, _ := Inpaint(clean, miss, 0, opt)
 			opt.Rounds = 0
 			fixed, _, _ := Inpaint(clean, miss, 0, opt)
 			harm := harmonicFill(clean, miss)
-			pl, pd, ph := psnr(t, clean, out), psnr(t, clean, fixed), psnr(t, clean, harm)
-			t.Logf("%s %.0f%% loss: learned %.2f dB (%d passes), DCT %.2f dB, harmonic %.2f dB", name, 100*frac, pl, res.Passes, pd, ph)
+			p, pl, pd, ph := psnr(t, clean, out), psnr(t, clean, learned), psnr(t, clean, fixed), psnr(t, clean, harm)
+			t.Logf("%s %.0f%% loss: %.2f dB (%d passes); masked K-SVD learned %.2f dB, DCT %.2f dB; harmonic %.2f dB", name, 100*frac, p, res.Passes, pl, pd, ph)
 			if pl < pd-0.4 {
-				t.Errorf("%s %.0f%%: learned %.2f dB, more than 0.4 dB under the DCT's %.2f dB", name, 100*frac, pl, pd)
+				t.Errorf("%s %.0f%%: learned dictionary %.2f dB, more than 0.4 dB under the DCT's %.2f dB", name, 100*frac, pl, pd)
 			}
-			need := ph
+			if p < pl+0.3 {
+				t.Errorf("%s %.0f%%: %.2f dB, want ≥ %.2f (masked K-SVD %.2f)", name, 100*frac, p, pl+0.3, pl)
+			}
+			need := ph + 0.8
 			if frac == 0.5 {
-				need = ph + 1
+				need = ph + 2.5
 			}
-			if pl < need {
-				t.Errorf("%s %.0f%%: %.2f dB, want ≥ %.2f (harmonic %.2f)", name, 100*frac, pl, need, ph)
+			if p < need {
+				t.Errorf("%s %.0f%%: %.2f dB, want ≥ %.2f (harmonic %.2f)", name, 100*frac, p, need, ph)
 			}
 		}
 	}
 }
 
 // Reference: scikit-image 0.19.3 inpaint_biharmonic, cases in
-// ../shared/reference/reference.json inpaint_biharmonic. Asserted: at least
-// the biharmonic PSNR in every case. The goal of 1 dB more at 50% loss is
-// not reached on these two textured crops (about +0.1 to +0.3 dB): the
-// shortfall is printed, not hidden.
+// ../shared/reference/reference.json inpaint_biharmonic. Asserted: above
+// the biharmonic PSNR by 0.15 dB at 50% loss, 0.5 dB at 80% and 1.2 dB for
+// the lines (measured: +0.22 and +0.83, +0.66 and +0.85, +1.34 and +1.56 on
+// kodim13 and kodim21). The goal of 1 dB more at 50% loss is not reached on
+// these two textured crops: the shortfall is printed, not hidden.
 func TestInpaintBeatsBiharmonicReference(t *testing.T) {
 	b, err := os.ReadFile(sharedPath(t, "reference", "reference.json"))
 	if err != nil {
@@ -172,8 +180,15 @@ func TestInpaintBeatsBiharmonicReference(t *testing.T) {
 		}
 		got := psnr(t, clean, out)
 		t.Logf("%s + %s (%.0f%% missing): %.2f dB in %d passes, biharmonic %.2f dB", c.Clean, c.Mask, 100*c.Missing, got, res.Passes, c.PSNR)
-		if got < c.PSNR {
-			t.Errorf("%s %s: %.2f dB, below the biharmonic %.2f dB", c.Clean, c.Mask, got, c.PSNR)
+		margin := 1.2
+		switch {
+		case math.Abs(c.Missing-0.5) < 0.01:
+			margin = 0.15
+		case math.Abs(c.Missing-0.8) < 0.01:
+			margin = 0.5
+		}
+		if got < c.PSNR+margin {
+			t.Errorf("%s %s: %.2f dB, want ≥ %.2f (biharmonic %.2f dB + %.2f)", c.Clean, c.Mask, got, c.PSNR+margin, c.PSNR, margin)
 		}
 		if math.Abs(c.Missing-0.5) < 0.01 && got < c.PSNR+1 {
 			t.Logf("%s: %.2f dB over biharmonic, short of the 1 dB goal", c.Mask, got-c.PSNR)
@@ -236,5 +251,122 @@ func TestInpaintRejectsFullMask(t *testing.T) {
 	}
 	if _, _, err := Inpaint(img, miss, 0, Defaults(0)); err == nil {
 		t.Fatal("a mask over the whole image was accepted")
+	}
+}
+
+// The separable step equals thresholding each patch's 2-D DCT directly
+// (basis from learn.DCTBasis, whose 8-point rows package learn checks
+// against scipy):
+// orthonormal transform, constant kept, coefficients below T zeroed,
+// inverse, average over the patches that hold a hole, over-relaxed update
+// of the holes only. Odd and even patch sides, strides 1 and 3.
+func TestDCTThresholdStepMatchesDirect(t *testing.T) {
+	clean := centreCrop(kodakGray(t, "kodim23.png"), 61, 47)
+	for _, p := range []int{8, 5} {
+		for _, stride := range []int{1, 3} {
+			miss := randomLoss(61, 47, 0.4, uint64(p*10+stride))
+			start := harmonicStart(clean, miss)
+			got := start.Clone()
+			g := newHoleGrid(miss, 61, 47, p, stride)
+			dctThresholdStep(got, miss, g, 12, 3)
+			want := directThreshold(start, miss, p, stride, 12)
+			worst := 0.0
+			for i := range want {
+				worst = math.Max(worst, math.Abs(float64(got.Pix[i])-want[i]))
+			}
+			t.Logf("p %d stride %d: largest difference %.2g", p, stride, worst)
+			// float32 pixels near 200: about 1e-5.
+			if worst > 1e-4 {
+				t.Errorf("p %d stride %d: largest difference %g", p, stride, worst)
+			}
+		}
+	}
+}
+
+// directThreshold is one thresholding step done the plain way.
+func directThreshold(img *patches.Image, miss []bool, p, stride int, T float64) []float64 {
+	B := learn.DCTBasis(p)
+	w := img.W
+	sum := make([]float64, w*img.H)
+	cnt := make([]float64, w*img.H)
+	for _, y := range patches.Positions(img.H, p, stride) {
+		for _, x := range patches.Positions(w, p, stride) {
+			hole := false
+			for r := 0; r < p; r++ {
+				for c := 0; c < p; c++ {
+					hole = hole || miss[(y+r)*w+x+c]
+				}
+			}
+			if !hole {
+				continue
+			}
+			coef := make([]float64, p*p)
+			for k1 := 0; k1 < p; k1++ {
+				for k2 := 0; k2 < p; k2++ {
+					v := 0.0
+					for r := 0; r < p; r++ {
+						for c := 0; c < p; c++ {
+							v += B[k1][r] * B[k2][c] * float64(img.Pix[(y+r)*w+x+c])
+						}
+					}
+					if k1+k2 > 0 && math.Abs(v) < T {
+						v = 0
+					}
+					coef[k1*p+k2] = v
+				}
+			}
+			for r := 0; r < p; r++ {
+				for c := 0; c < p; c++ {
+					v := 0.0
+					for k1 := 0; k1 < p; k1++ {
+						for k2 := 0; k2 < p; k2++ {
+							v += B[k1][r] * B[k2][c] * coef[k1*p+k2]
+						}
+					}
+					sum[(y+r)*w+x+c] += v
+					cnt[(y+r)*w+x+c]++
+				}
+			}
+		}
+	}
+	out := make([]float64, w*img.H)
+	for i := range out {
+		out[i] = float64(img.Pix[i])
+		if miss[i] && cnt[i] > 0 {
+			out[i] += overRelax * (sum[i]/cnt[i] - out[i])
+		}
+	}
+	return out
+}
+
+// Results do not depend on the number of workers (Options.Workers), gray
+// or colour, and colour fills keep the known pixels exactly too.
+func TestInpaintWorkersAndColour(t *testing.T) {
+	gray := centreCrop(kodakGray(t, "kodim23.png"), 120, 72)
+	rgb := centreCrop(loadPNG(t, sharedPath(t, "kodak", "kodim23.png")), 72, 64)
+	for _, img := range []*patches.Image{gray, rgb} {
+		miss := randomLoss(img.W, img.H, 0.6, 8)
+		opt := inpaintOpts()
+		opt.Workers = 1
+		a, _, err := Inpaint(img, miss, 0, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		opt.Workers = 5
+		b, _, _ := Inpaint(img, miss, 0, opt)
+		wh := img.W * img.H
+		for i := range a.Pix {
+			if a.Pix[i] != b.Pix[i] {
+				t.Fatalf("%d channels: sample %d is %g with 1 worker, %g with 5", img.C, i, a.Pix[i], b.Pix[i])
+			}
+			if !miss[i%wh] && a.Pix[i] != img.Pix[i] {
+				t.Fatalf("%d channels: known sample %d changed: %g → %g", img.C, i, img.Pix[i], a.Pix[i])
+			}
+		}
+		got, before := psnr(t, img, a), psnr(t, img, harmonicStart(img, miss))
+		t.Logf("%d channels, 60%% loss: %.2f dB, harmonic start %.2f dB", img.C, got, before)
+		if got < before+1 {
+			t.Errorf("%d channels: %.2f dB, harmonic start %.2f dB", img.C, got, before)
+		}
 	}
 }

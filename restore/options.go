@@ -27,6 +27,21 @@ type Stage struct {
 }
 
 // Options of a denoising run. Build them with Defaults and change fields.
+// FillMethod is a method of Inpaint.
+type FillMethod int
+
+const (
+	// FillAuto is FillTransform for noise-free images without a given
+	// dictionary, FillDictionary otherwise.
+	FillAuto FillMethod = iota
+	// FillTransform is iterated thresholding in the fixed 2-D DCT; it
+	// keeps the known pixels and takes no noise level.
+	FillTransform
+	// FillDictionary is masked K-SVD and OMP (Mairal, Elad & Sapiro 2008);
+	// it can denoise the known pixels too.
+	FillDictionary
+)
+
 type Options struct {
 	Patch   int     // patch side p
 	Atoms   int     // dictionary size K
@@ -40,8 +55,10 @@ type Options struct {
 	// 0–255 scale: 0 means the published 30/σ.
 	Lambda float64
 	Color  ColorMode
-	// Passes is the number of sparse passes of Inpaint (0: 5).
+	// Passes is the number of passes of Inpaint over the holes (0: 5).
 	Passes int
+	// Fill chooses Inpaint's method.
+	Fill FillMethod
 	// Dict, when set, is the starting dictionary (instead of the DCT); with
 	// Rounds = 0 it is used as it is.
 	Dict *learn.Dict

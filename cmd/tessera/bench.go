@@ -69,10 +69,11 @@ every entry of --holes, the pixels of a seeded mask are removed (N%: each
 pixel lost with probability N/100; text: lines of overlaid capitals and
 digits, strokes 2 pixels wide, about a tenth of the pixels), and filled
 by the harmonic fill (Laplace's equation on the holes: the baseline every
-row is measured against), by tessera inpaint's method (ksvd) and, with
---compare dct, by the same with the fixed DCT. The known pixels are
-noise-free; PSNR and SSIM are taken over the whole image. The options
-default to those of tessera inpaint; there is no report page.
+row is measured against) and by the fill methods of tessera inpaint: dct
+(the default; --method ksvd instead) and, with --compare ksvd, the
+dictionary fill too. The known pixels are noise-free; PSNR and SSIM are
+taken over the whole image. The options default to those of tessera
+inpaint; there is no report page.
 
 Output: a Markdown table on standard output (a row per image, σ and
 method; a mean row per σ and method), --json FILE and --csv FILE with the
@@ -181,20 +182,26 @@ func parseBenchConfig(cc *cli.Context) (*benchConfig, error) {
 			return nil, err
 		}
 	}
-	first, err := parseMethod(cc.String("method"))
-	if err != nil {
-		return nil, err
-	}
-	c.methods = []string{first}
-	if cc.IsSet("compare") {
-		for _, m := range strings.Split(cc.String("compare"), ",") {
-			switch m = strings.TrimSpace(strings.ToLower(m)); m {
-			case methodDCT, methodGroup, methodLearned:
-				if !hasMethod(c.methods, m) {
-					c.methods = append(c.methods, m)
+	if c.task == taskInpaint {
+		if c.methods, err = parseFillMethods(cc); err != nil {
+			return nil, err
+		}
+	} else {
+		first, err := parseMethod(cc.String("method"))
+		if err != nil {
+			return nil, err
+		}
+		c.methods = []string{first}
+		if cc.IsSet("compare") {
+			for _, m := range strings.Split(cc.String("compare"), ",") {
+				switch m = strings.TrimSpace(strings.ToLower(m)); m {
+				case methodDCT, methodGroup, methodLearned:
+					if !hasMethod(c.methods, m) {
+						c.methods = append(c.methods, m)
+					}
+				default:
+					return nil, usagef("--compare %q: unknown method; choose among dct, group and ksvd", m)
 				}
-			default:
-				return nil, usagef("--compare %q: unknown method; choose among dct, group and ksvd", m)
 			}
 		}
 	}

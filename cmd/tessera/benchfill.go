@@ -144,9 +144,6 @@ func (c *benchConfig) parseTask(cc *cli.Context) error {
 			return usagef("--%s goes with --task denoise: the inpainting protocol fills noise-free images and writes no report page", f)
 		}
 	}
-	if strings.EqualFold(strings.TrimSpace(cc.String("method")), methodGroup) || strings.Contains(strings.ToLower(cc.String("compare")), methodGroup) {
-		return usagef("the group method denoises only; --task inpaint measures ksvd and dct against the harmonic fill")
-	}
 	h, err := parseHoles(cc.String("holes"))
 	if err != nil {
 		return err
@@ -154,6 +151,39 @@ func (c *benchConfig) parseTask(cc *cli.Context) error {
 	c.holes = h
 	c.den.defaults = restore.InpaintDefaults
 	return nil
+}
+
+// parseFillMethods reads --method and --compare of the inpainting
+// protocol: dct (the default of tessera inpaint) and ksvd.
+func parseFillMethods(cc *cli.Context) ([]string, error) {
+	var out []string
+	add := func(flag, m string) error {
+		switch m = strings.ToLower(strings.TrimSpace(m)); m {
+		case methodDCT, methodLearned:
+			if !hasMethod(out, m) {
+				out = append(out, m)
+			}
+			return nil
+		case methodGroup:
+			return usagef("--%s group: the group method denoises only; the inpainting protocol measures dct and ksvd (the methods of tessera inpaint)", flag)
+		}
+		return usagef("--%s %q: unknown fill method; choose dct or ksvd", flag, m)
+	}
+	first := methodDCT
+	if cc.IsSet("method") {
+		first = cc.String("method")
+	}
+	if err := add("method", first); err != nil {
+		return nil, err
+	}
+	if cc.IsSet("compare") {
+		for _, m := range strings.Split(cc.String("compare"), ",") {
+			if err := add("compare", m); err != nil {
+				return nil, err
+			}
+		}
+	}
+	return out, nil
 }
 
 // fillMethods are the methods of an inpainting run: the harmonic baseline
@@ -305,9 +335,10 @@ func fillCase(clean, holed *patches.Image, miss []bool, method string, opt resto
 	case methodHarmonic:
 		out, err = restore.HarmonicFill(holed, miss)
 	case methodDCT:
-		opt.Rounds, opt.Dict = 0, nil
+		opt.Fill = restore.FillTransform
 		out, _, err = restore.Inpaint(holed, miss, 0, opt)
 	default:
+		opt.Fill = restore.FillDictionary
 		out, _, err = restore.Inpaint(holed, miss, 0, opt)
 	}
 	dt := time.Since(t0).Seconds()

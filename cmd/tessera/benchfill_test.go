@@ -20,21 +20,21 @@ func TestParseHoles(t *testing.T) {
 }
 
 // TestBenchInpaint runs the inpainting protocol on one small image: the
-// harmonic fill first as the baseline (gain 0), the learned fill measured
-// against it, the holes as asked, and the usage errors of the protocol.
+// harmonic fill first as the baseline (gain 0), the default (dct) and the
+// dictionary (ksvd) fills measured against it, the holes as asked, and the usage errors of the protocol.
 func TestBenchInpaint(t *testing.T) {
 	dir := t.TempDir()
 	cleanSet(t, filepath.Join(dir, "set"), 1, 1, 48)
-	r := tessera(t, dir, nil, nil, append([]string{"bench", "--set", "set", "--task", "inpaint", "--holes", "50%,text", "--json", "f.json", "--csv", "f.csv"}, quick...)...)
+	r := tessera(t, dir, nil, nil, append([]string{"bench", "--set", "set", "--task", "inpaint", "--holes", "50%,text", "--compare", "ksvd", "--json", "f.json", "--csv", "f.csv"}, quick...)...)
 	r.want(t, 0)
 	var rep fillReport
 	if err := json.Unmarshal(mustRead(t, filepath.Join(dir, "f.json")), &rep); err != nil {
 		t.Fatal(err)
 	}
-	if len(rep.Runs) != 4 || len(rep.Mean) != 4 || rep.Task != "inpaint" {
+	if len(rep.Runs) != 6 || len(rep.Mean) != 6 || rep.Task != "inpaint" {
 		t.Fatalf("%d runs, %d means, task %q", len(rep.Runs), len(rep.Mean), rep.Task)
 	}
-	for i, want := range []struct{ holes, method string }{{"50%", "harmonic"}, {"50%", "ksvd"}, {"text", "harmonic"}, {"text", "ksvd"}} {
+	for i, want := range []struct{ holes, method string }{{"50%", "harmonic"}, {"50%", "dct"}, {"50%", "ksvd"}, {"text", "harmonic"}, {"text", "dct"}, {"text", "ksvd"}} {
 		run := rep.Runs[i]
 		if run.Holes != want.holes || run.Method != want.method || !(run.PSNR > 10) {
 			t.Errorf("run %d: %+v, want %s by %s", i, run, want.holes, want.method)
@@ -42,8 +42,8 @@ func TestBenchInpaint(t *testing.T) {
 		if run.Method == "harmonic" && run.Gain != 0 {
 			t.Errorf("the baseline's gain is %g", run.Gain)
 		}
-		if run.Method == "ksvd" && math.Abs(run.Gain-(run.PSNR-rep.Runs[i-1].PSNR)) > 1e-3 {
-			t.Errorf("gain %g is not PSNR %g over the harmonic %g", run.Gain, run.PSNR, rep.Runs[i-1].PSNR)
+		if base := rep.Runs[i-i%3]; math.Abs(run.Gain-(run.PSNR-base.PSNR)) > 1e-3 {
+			t.Errorf("gain %g is not PSNR %g over the harmonic %g", run.Gain, run.PSNR, base.PSNR)
 		}
 	}
 	// 48² = 2304 pixels at 50%: 5 binomial s.d. is 0.052.

@@ -59,7 +59,8 @@ type config struct {
 	format    string // "", "png", "tiff" or "pgm"
 	maxPixels int64
 
-	method string // methodLearned or methodGroup
+	method string             // methodLearned or methodGroup
+	fill   restore.FillMethod // tessera inpaint's --method
 
 	dictConfig // --dict and --tile (learncmd.go)
 	batchHooks // what other batch commands change (batch.go)
@@ -91,6 +92,7 @@ func (c *config) options(sigma255 float64) restore.Options {
 	}
 	c.applyDict(&o)
 	o.Seed = c.seed
+	o.Fill = c.fill
 	return o
 }
 

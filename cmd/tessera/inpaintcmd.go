@@ -21,11 +21,25 @@ import (
 var inpaintHelpDefaults = restore.InpaintDefaults(0)
 
 const inpaintDescription = `Fills the missing pixels of each image (dust, scratches, dead or saturated
-pixels) from what the rest of the image shows: learns a dictionary of
-patches on the known pixels only (masked K-SVD), starts the holes from a
-smooth (harmonic) guess and refines them with --passes sparse passes of
-weighted orthogonal matching pursuit over every patch that touches a hole
-(Mairal, Elad & Sapiro 2008).
+pixels) from what the rest of the image shows. The holes start from a
+smooth (harmonic) guess, which --passes passes then refine, by one of two
+methods:
+
+  --method dct   (the default without --sigma) iterated thresholding: every
+                 8×8 patch that holds a hole is hard-thresholded in the 2-D
+                 DCT, the patches are averaged back and the known pixels
+                 reset, with a threshold falling from pass to pass
+                 (Guleryuz 2006); 3 iterations per pass. Known pixels must
+                 be noise-free; --atoms, --rounds, --train and --bound do
+                 not apply.
+  --method ksvd  (the default with --sigma) learns a dictionary
+                 of patches on the known pixels only (masked K-SVD) and
+                 codes every patch that touches a hole with weighted
+                 orthogonal matching pursuit (Mairal, Elad & Sapiro 2008);
+                 it can denoise the known pixels too.
+
+On the project's Kodak tests dct was the better of the two on 9 of 12
+crops and about ten times faster (README).
 
 Where the missing pixels are, exactly one of:
   --mask FILE          one mask for every input
@@ -81,7 +95,8 @@ func inpaintCommand(e *env) *cli.Command {
 			&cli.StringFlag{Name: "mask-suffix", Usage: "the missing pixels: each input's mask lies beside it, named with `SUFFIX` added (frame.png → frame_mask.png for _mask)"},
 			&cli.StringFlag{Name: "missing-value", Usage: "the missing pixels: those equal to `V` in every channel (0..65535, in the image's own units)"},
 			&cli.StringFlag{Name: "sigma", Usage: "noise standard deviation `N` in the image's own units, or auto to estimate it per image; denoises the known pixels too (without it they are kept exactly)"},
-			&cli.IntFlag{Name: "passes", Value: 5, Usage: "`N` sparse passes over the holes, 1..1000"},
+			&cli.StringFlag{Name: "method", DefaultText: "dct, or ksvd with --sigma", Usage: "fill method `dct|ksvd`: iterated DCT thresholding, or a dictionary learned on the known pixels"},
+			&cli.IntFlag{Name: "passes", Value: 5, Usage: "`N` passes over the holes, 1..1000"},
 		}, codingFlags(inpaintHelpDefaults, " on the known pixels", " (σ at least 1.5 on the 8-bit scale)", pathSeed), batchFlags("images and masks")),
 		Action: func(cc *cli.Context) error {
 			cfg, err := parseInpaint(cc, e)
@@ -137,6 +152,19 @@ func parseInpaint(cc *cli.Context, e *env) (*config, error) {
 	if cc.IsSet("sigma") {
 		if in.sigma, in.auto, err = parseInpaintSigma(cc.String("sigma")); err != nil {
 			return nil, err
+		}
+	}
+	if cc.IsSet("method") {
+		switch m := strings.ToLower(strings.TrimSpace(cc.String("method"))); m {
+		case methodDCT:
+			if in.sigma > 0 || in.auto {
+				return nil, usagef("--method dct keeps the known pixels as they are and takes no --sigma; use --method ksvd to denoise them too")
+			}
+			c.fill = restore.FillTransform
+		case methodLearned:
+			c.fill = restore.FillDictionary
+		default:
+			return nil, usagef("--method %q: unknown fill method; choose dct (the default) or ksvd", cc.String("method"))
 		}
 	}
 
@@ -439,10 +467,21 @@ func (in *inpainter) step(b *batch, j *job, f *imgfile.File, slot int, rec *reco
 		case s.Name == "train":
 			b.con.set(slot, filling(1))
 		case s.Name == "code":
-			b.con.set(slot, filling(s.Done+1))
+			b.con.set(slot, fmt.Sprintf("filling %d%%", 100*s.Done/max(s.Total, 1)))
 		}
 	}
-	if opt.Rounds > 0 {
+	// As restore.Inpaint picks under FillAuto (--sigma auto is resolved by now).
+	if opt.Fill == restore.FillAuto {
+		opt.Fill = restore.FillTransform
+		if sigma > 0 {
+			opt.Fill = restore.FillDictionary
+		}
+	}
+	rec.Method = methodDCT
+	if opt.Fill == restore.FillDictionary {
+		rec.Method = methodLearned
+	}
+	if opt.Rounds > 0 && opt.Fill == restore.FillDictionary {
 		b.con.set(slot, stageText(restore.Stage{Name: "train", Rounds: opt.Rounds}))
 	} else {
 		b.con.set(slot, filling(1))
