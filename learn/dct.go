@@ -98,3 +98,20 @@ func RandomDict(X []float64, m, n, k int, seed uint64) *Dict {
 	d.Normalize()
 	return d
 }
+
+// DCTAtoms returns the first atoms atoms of the overcomplete DCT for p×p
+// patches of c channels: OvercompleteDCT(p, √atoms, c) when atoms is a
+// square of at least p², else the first atoms of the next larger square
+// one. It is the starting dictionary of the pipelines.
+func DCTAtoms(p, atoms, c int) *Dict {
+	m := int(math.Round(math.Sqrt(float64(atoms))))
+	if m*m != atoms || m < p {
+		m = max(int(math.Ceil(math.Sqrt(float64(atoms)))), p)
+		full := OvercompleteDCT(p, m, c)
+		d := NewDict(full.N, atoms)
+		d.Patch, d.Channels = p, c
+		copy(d.Atoms, full.Atoms[:atoms*full.N])
+		return d
+	}
+	return OvercompleteDCT(p, m, c)
+}

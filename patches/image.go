@@ -62,6 +62,18 @@ func (m *Image) Crop(x0, y0, w, h int) *Image {
 	return out
 }
 
+// Scaled returns a copy with every sample multiplied by s.
+func (m *Image) Scaled(s float64) *Image {
+	out := m.Clone()
+	if s == 1 {
+		return out
+	}
+	for i, v := range out.Pix {
+		out.Pix[i] = float32(float64(v) * s)
+	}
+	return out
+}
+
 // Channel returns channel c as a one-channel copy.
 func (m *Image) Channel(c int) *Image {
 	out := New(m.W, m.H, 1, m.Depth)

@@ -77,7 +77,7 @@ func Denoise(img *patches.Image, sigma float64, opt Options) (*patches.Image, *R
 	}
 	// Work on the 0–255 scale, where the published constants hold.
 	scale := 255 / img.Peak()
-	work := scaled(img, scale)
+	work := img.Scaled(scale)
 	s255 := sigma * scale
 	var out *patches.Image
 	var res *Result
@@ -97,7 +97,7 @@ func Denoise(img *patches.Image, sigma float64, opt Options) (*patches.Image, *R
 	} else {
 		out, res = denoisePlane(work, s255, opt)
 	}
-	return scaled(out, 1/scale), res, nil
+	return out.Scaled(1 / scale), res, nil
 }
 
 // denoisePlane runs training, coding and the average back on an image in
@@ -109,7 +109,7 @@ func denoisePlane(img *patches.Image, s255 float64, opt Options) (*patches.Image
 	maxAtoms := n / 2
 	d := opt.Dict
 	if d == nil {
-		d = startDict(p, opt.Atoms, img.C)
+		d = learn.DCTAtoms(p, opt.Atoms, img.C)
 	}
 	if opt.Rounds > 0 {
 		X, m := trainingSet(img, p, opt.Train, learn.SubSeed(opt.Seed, "train"))
@@ -168,22 +168,6 @@ func denoisePlane(img *patches.Image, s255 float64, opt Options) (*patches.Image
 	return acc.Blend(img, lambda), &Result{Dict: d, MeanAtoms: float64(atoms) / float64(coded)}
 }
 
-// startDict is the overcomplete DCT with the nearest square atom count.
-func startDict(p, atoms, c int) *learn.Dict {
-	m := int(math.Round(math.Sqrt(float64(atoms))))
-	if m*m != atoms || m < p {
-		// Non-square counts: take the first atoms of a larger DCT.
-		m = int(math.Ceil(math.Sqrt(float64(atoms))))
-		m = max(m, p)
-		full := learn.OvercompleteDCT(p, m, c)
-		d := learn.NewDict(full.N, atoms)
-		d.Patch, d.Channels = p, c
-		copy(d.Atoms, full.Atoms[:atoms*full.N])
-		return d
-	}
-	return learn.OvercompleteDCT(p, m, c)
-}
-
 // trainingSet draws up to want distinct patch positions (seeded), mean removed.
 func trainingSet(img *patches.Image, p, want int, seed uint64) ([]float64, int) {
 	nx, ny := img.W-p+1, img.H-p+1
@@ -206,17 +190,6 @@ func trainingSet(img *patches.Image, p, want int, seed uint64) ([]float64, int) 
 		patches.Extract(img, pos%nx, pos/nx, p, X[i*n:(i+1)*n], true)
 	}
 	return X, m
-}
-
-func scaled(img *patches.Image, s float64) *patches.Image {
-	out := img.Clone()
-	if s == 1 {
-		return out
-	}
-	for i, v := range out.Pix {
-		out.Pix[i] = float32(float64(v) * s)
-	}
-	return out
 }
 
 // ToOpponent applies the orthonormal opponent transform

@@ -101,7 +101,7 @@ func Inpaint(img *patches.Image, missing []bool, sigma float64, opt Options) (*p
 		return nil, nil, &OptionError{"mask", "the mask covers the whole image: there is nothing to learn from"}
 	}
 	scale := 255 / img.Peak()
-	work := scaled(img, scale)
+	work := img.Scaled(scale)
 	s255 := sigma * scale
 	if holes == 0 && sigma == 0 {
 		return img.Clone(), &InpaintResult{}, nil
@@ -113,7 +113,7 @@ func Inpaint(img *patches.Image, missing []bool, sigma float64, opt Options) (*p
 	} else {
 		out, res = inpaintPlane(work, missing, s255, opt)
 	}
-	return scaled(out, 1/scale), res, nil
+	return out.Scaled(1 / scale), res, nil
 }
 
 func inpaintPlane(img *patches.Image, missing []bool, s255 float64, opt Options) (*patches.Image, *InpaintResult) {
@@ -130,7 +130,7 @@ func inpaintPlane(img *patches.Image, missing []bool, s255 float64, opt Options)
 	}
 	d := opt.Dict
 	if d == nil {
-		d = startDict(p, opt.Atoms, img.C)
+		d = learn.DCTAtoms(p, opt.Atoms, img.C)
 	}
 	if opt.Rounds > 0 {
 		X, known, eps, m := maskedTrainingSet(img, weight, p, opt.Train, perEntry, learn.SubSeed(opt.Seed, "inpaint-train"))

@@ -54,7 +54,7 @@ func DenoiseTiled(img *patches.Image, sigma float64, tile int, opt Options) (*pa
 	return out, res, nil
 }
 
-// opponentScaled writes ToOpponent(scaled(img, s)) into out, with the same
+// opponentScaled writes ToOpponent(img.Scaled(s)) into out, with the same
 // roundings and no intermediate copy.
 func opponentScaled(img, out *patches.Image, s float64) {
 	r, g, b := img.Plane(0), img.Plane(1), img.Plane(2)
@@ -70,7 +70,7 @@ func opponentScaled(img, out *patches.Image, s float64) {
 	}
 }
 
-// fromOpponentScaled is scaled(FromOpponent(img), s) in place.
+// fromOpponentScaled is FromOpponent(img).Scaled(s) in place.
 func fromOpponentScaled(img *patches.Image, s float64) {
 	a, b, c := img.Plane(0), img.Plane(1), img.Plane(2)
 	s3, s2, s6 := math.Sqrt(3), math.Sqrt2, math.Sqrt(6)
@@ -97,7 +97,7 @@ func denoiseTiles(src, dst *patches.Image, scale, s255 float64, tile int, opt Op
 	maxAtoms := n / 2
 	d := opt.Dict
 	if d == nil {
-		d = startDict(p, opt.Atoms, img.C)
+		d = learn.DCTAtoms(p, opt.Atoms, img.C)
 	}
 	if opt.Rounds > 0 {
 		nx, ny := img.W-p+1, img.H-p+1

@@ -55,7 +55,7 @@ func Train(n int, image func(i int) (*patches.Image, float64, error), opt Option
 		// opponent channels one by one.
 		srcs := []*patches.Image{img}
 		if img.C > 1 && opt.Color == ColorSeparate {
-			op := ToOpponent(scaled(img, scale))
+			op := ToOpponent(img.Scaled(scale))
 			scale = 1
 			srcs = srcs[:0]
 			for c := 0; c < op.C; c++ {
@@ -91,7 +91,7 @@ func Train(n int, image func(i int) (*patches.Image, float64, error), opt Option
 	m := len(eps)
 	d := opt.Dict
 	if d == nil {
-		d = startDict(p, opt.Atoms, planes)
+		d = learn.DCTAtoms(p, opt.Atoms, planes)
 	}
 	var codes *learn.Codes
 	if opt.Rounds > 0 {

@@ -186,7 +186,7 @@ func DenoiseParams(img *patches.Image, sigma float64, opt restore.Options, pr Pa
 		return nil, nil, err
 	}
 	scale := 255 / img.Peak()
-	work := scaled(img, scale)
+	work := img.Scaled(scale)
 	s255 := sigma * scale
 	rep := newReporter(opt, pr, img.C)
 	var out *patches.Image
@@ -216,7 +216,7 @@ func DenoiseParams(img *patches.Image, sigma float64, opt restore.Options, pr Pa
 		outs, dicts, atoms := denoiseChannels([]*patches.Image{work}, s255, opt, pr, rep)
 		out, res.Dict, res.MeanAtoms = outs[0], dicts[0], atoms
 	}
-	return scaled(out, 1/scale), res, nil
+	return out.Scaled(1 / scale), res, nil
 }
 
 // denoiseChannels runs the passes on images in 0–255 units; all are
@@ -320,31 +320,4 @@ func (r *reporter) coded(perRun int) {
 	if r.fn != nil {
 		r.fn(restore.Stage{Name: "code", Done: r.chunk, Total: perRun * r.runs})
 	}
-}
-
-// startDict is the overcomplete DCT with the nearest square atom count, as
-// restore.Denoise starts.
-func startDict(p, atoms, c int) *learn.Dict {
-	m := int(math.Round(math.Sqrt(float64(atoms))))
-	if m*m != atoms || m < p {
-		m = int(math.Ceil(math.Sqrt(float64(atoms))))
-		m = max(m, p)
-		full := learn.OvercompleteDCT(p, m, c)
-		d := learn.NewDict(full.N, atoms)
-		d.Patch, d.Channels = p, c
-		copy(d.Atoms, full.Atoms[:atoms*full.N])
-		return d
-	}
-	return learn.OvercompleteDCT(p, m, c)
-}
-
-func scaled(img *patches.Image, s float64) *patches.Image {
-	out := img.Clone()
-	if s == 1 {
-		return out
-	}
-	for i, v := range out.Pix {
-		out.Pix[i] = float32(float64(v) * s)
-	}
-	return out
 }

@@ -43,7 +43,7 @@ func runPass(in passIn, opt restore.Options, pr Params, rep *reporter) (*patches
 	}
 	d := in.d0
 	if d == nil {
-		d = startDict(p, opt.Atoms, img.C)
+		d = learn.DCTAtoms(p, opt.Atoms, img.C)
 	}
 	if in.rounds > 0 {
 		src := img
