@@ -144,8 +144,18 @@ func TestInpaintMaskFile(t *testing.T) {
 	}
 	rec := checkKeys(t, readReport(t, filepath.Join(dir, "r.jsonl")))["a.png"]
 	if rec["status"] != "done" || rec["mask"] != "m.png" || rec["filled"] != float64(countTrue(miss)) ||
-		rec["passes"] != 5.0 || rec["sigma"] != nil || rec["note"] != nil {
-		t.Fatalf("report %v; want done, mask m.png, filled %d, 5 passes, no σ", rec, countTrue(miss))
+		rec["passes"] != 5.0 || rec["sigma"] != nil || rec["note"] != nil || rec["method"] != "dct" {
+		t.Fatalf("report %v; want done, mask m.png, filled %d, 5 passes, no σ, method dct", rec, countTrue(miss))
+	}
+	// The dictionary fill on request: it fills too, and the report says so.
+	inpaint(t, dir, "a.png", "--mask", "m.png", "--method", "ksvd", "--out", "k.png", "--report", "k.jsonl").want(t, 0, "1 done")
+	k := decode(t, filepath.Join(dir, "k.png"))
+	sameKnown(t, "k.png", k.Img, in.Img, miss)
+	if after := holeMSE(k.Img, clean, miss); !(after < before/100) {
+		t.Fatalf("--method ksvd: hole MSE %.1f after, %.1f before", after, before)
+	}
+	if rec := readReport(t, filepath.Join(dir, "k.jsonl"))[0]; rec["method"] != "ksvd" {
+		t.Fatalf("--method ksvd: report %v", rec)
 	}
 	// Without --out the output lands beside the input; a rerun skips it.
 	inpaint(t, dir, "a.png", "--mask", "m.png").want(t, 0, "1 done")
@@ -333,6 +343,9 @@ func TestInpaintSigma(t *testing.T) {
 		r := inpaint(t, dir, "n.png", "--mask", "m.png", "--sigma", s, "--out", "o"+s+".png", "--report", "-")
 		r.want(t, 0, "1 done")
 		rec := checkKeys(t, parseReport(t, r.stdout))["n.png"]
+		if rec["method"] != "ksvd" {
+			t.Fatalf("--sigma %s: method %v, want the dictionary fill (ksvd)", s, rec["method"])
+		}
 		sig, _ := rec["sigma"].(float64)
 		if rec["sigma_estimated"] != (s == "auto") || !(sig > 5 && sig < 15) {
 			t.Fatalf("--sigma %s: record %v; want σ near 10", s, rec)
@@ -348,6 +361,8 @@ func TestInpaintSigma(t *testing.T) {
 			t.Fatalf("--sigma %s: known-pixel MSE %.1f after, %.1f before", s, after, before)
 		}
 	}
+	inpaint(t, dir, "n.png", "--mask", "m.png", "--sigma", "10", "--method", "dct").want(t, 2, "--method dct keeps the known pixels as they are and takes no --sigma; use --method ksvd")
+	inpaint(t, dir, "n.png", "--mask", "m.png", "--method", "nl").want(t, 2, `--method "nl": unknown fill method; choose dct (the default) or ksvd`)
 }
 
 // TestInpaintUsage: bad command lines exit 2 before any image is read.
