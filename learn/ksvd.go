@@ -261,7 +261,8 @@ func signalOf(codes *Codes, pos []int32) []int {
 
 // worstFirst returns the indices of the c largest errs, largest first,
 // ties by index: the first c of a stable sort by decreasing error, found
-// by selection in O(m) and a sort of those c alone.
+// from a sort of the values alone (no index shuffling) and a stable sort
+// of those c.
 func worstFirst(errs []float64, c int) []int {
 	m := len(errs)
 	if c >= m {
@@ -273,8 +274,8 @@ func worstFirst(errs []float64, c int) []int {
 		return order
 	}
 	v := slices.Clone(errs)
-	// v[c-1] after partial selection is the c-th largest value.
-	t := nthLargest(v, c-1)
+	slices.Sort(v)
+	t := v[m-c] // the c-th largest value
 	order := make([]int, 0, c)
 	for i, e := range errs {
 		if e > t {
@@ -291,40 +292,6 @@ func worstFirst(errs []float64, c int) []int {
 	}
 	sort.SliceStable(order, func(a, b int) bool { return errs[order[a]] > errs[order[b]] })
 	return order
-}
-
-// nthLargest reorders v so that v[k] is the (k+1)-th largest value and
-// returns it (Hoare's selection, median-of-three pivots).
-func nthLargest(v []float64, k int) float64 {
-	lo, hi := 0, len(v)-1
-	for lo < hi {
-		mid := lo + (hi-lo)/2
-		a, b, c := v[lo], v[mid], v[hi]
-		p := max(min(a, b), min(max(a, b), c))
-		i, j := lo, hi
-		for i <= j {
-			for v[i] > p {
-				i++
-			}
-			for v[j] < p {
-				j--
-			}
-			if i <= j {
-				v[i], v[j] = v[j], v[i]
-				i++
-				j--
-			}
-		}
-		switch {
-		case k <= j:
-			hi = j
-		case k >= i:
-			lo = i
-		default:
-			return v[k]
-		}
-	}
-	return v[k]
 }
 
 // replaceAtoms swaps unused atoms, and atoms that nearly repeat an earlier

@@ -476,24 +476,7 @@ func runBench(cfg *benchConfig, e *env) error {
 		}
 	}
 	rep.Mean = benchMeans(rep.Runs, cfg)
-	var outErr []string
-	if err := writeMarkdown(e.stdout, rep); err != nil {
-		outErr = append(outErr, fmt.Sprintf("standard output: cannot write (%s)%s", errText(err), writeFix(err)))
-	}
-	if cfg.jsonOut != "" {
-		b, err := json.MarshalIndent(rep, "", "  ")
-		if err == nil {
-			err = writeBytesAtomic(cfg.jsonOut, append(b, '\n'))
-		}
-		if err != nil {
-			outErr = append(outErr, fmt.Sprintf("--json %v", err))
-		}
-	}
-	if cfg.csvOut != "" {
-		if err := writeBytesAtomic(cfg.csvOut, benchCSV(rep.Runs)); err != nil {
-			outErr = append(outErr, fmt.Sprintf("--csv %v", err))
-		}
-	}
+	outErr := cfg.writeOutputs(e, func(w io.Writer) error { return writeMarkdown(w, rep) }, rep, benchCSV(rep.Runs))
 	if cfg.htmlDir != "" {
 		if err := writeHTMLReport(cfg.htmlDir, rep, shots); err != nil {
 			outErr = append(outErr, fmt.Sprintf("--html %v", err))
@@ -608,6 +591,30 @@ func benchCase(clean *patches.Image, name string, sigma255 float64, seed uint64,
 		return benchRun{}, nil, nil, nil, fmt.Errorf("%s: the restoration gave a PSNR of %g; please report it with the image", name, r.PSNR)
 	}
 	return r, noisy, out, res.Dict, nil
+}
+
+// writeOutputs writes the Markdown table to standard output and rep as
+// --json and csv as --csv when asked, and returns a message per failure.
+func (cfg *benchConfig) writeOutputs(e *env, md func(io.Writer) error, rep any, csv []byte) []string {
+	var outErr []string
+	if err := md(e.stdout); err != nil {
+		outErr = append(outErr, fmt.Sprintf("standard output: cannot write (%s)%s", errText(err), writeFix(err)))
+	}
+	if cfg.jsonOut != "" {
+		b, err := json.MarshalIndent(rep, "", "  ")
+		if err == nil {
+			err = writeBytesAtomic(cfg.jsonOut, append(b, '\n'))
+		}
+		if err != nil {
+			outErr = append(outErr, fmt.Sprintf("--json %v", err))
+		}
+	}
+	if cfg.csvOut != "" {
+		if err := writeBytesAtomic(cfg.csvOut, csv); err != nil {
+			outErr = append(outErr, fmt.Sprintf("--csv %v", err))
+		}
+	}
+	return outErr
 }
 
 // benchMeans averages the runs per method and σ, in the order of the

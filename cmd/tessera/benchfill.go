@@ -5,7 +5,6 @@ package main
 import (
 	"bytes"
 	"encoding/csv"
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -232,24 +231,7 @@ func runBenchFill(cfg *benchConfig, e *env) error {
 		}
 	}
 	rep.Mean = fillMeans(rep.Runs, cfg.holes, methods, cfg.color)
-	var outErr []string
-	if err := writeFillMarkdown(e.stdout, rep); err != nil {
-		outErr = append(outErr, fmt.Sprintf("standard output: cannot write (%s)%s", errText(err), writeFix(err)))
-	}
-	if cfg.jsonOut != "" {
-		b, err := json.MarshalIndent(rep, "", "  ")
-		if err == nil {
-			err = writeBytesAtomic(cfg.jsonOut, append(b, '\n'))
-		}
-		if err != nil {
-			outErr = append(outErr, fmt.Sprintf("--json %v", err))
-		}
-	}
-	if cfg.csvOut != "" {
-		if err := writeBytesAtomic(cfg.csvOut, fillCSV(rep.Runs)); err != nil {
-			outErr = append(outErr, fmt.Sprintf("--csv %v", err))
-		}
-	}
+	outErr := cfg.writeOutputs(e, func(w io.Writer) error { return writeFillMarkdown(w, rep) }, rep, fillCSV(rep.Runs))
 	for _, m := range outErr {
 		con.line("tessera: " + m)
 	}
