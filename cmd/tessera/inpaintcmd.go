@@ -167,6 +167,17 @@ func parseInpaint(cc *cli.Context, e *env) (*config, error) {
 			return nil, usagef("--method %q: unknown fill method; choose dct (the default) or ksvd", cc.String("method"))
 		}
 	}
+	if c.fill == restore.FillTransform || (c.fill == restore.FillAuto && in.sigma == 0 && !in.auto) {
+		var unused []string
+		for _, f := range []string{"atoms", "rounds", "train", "bound"} {
+			if cc.IsSet(f) {
+				unused = append(unused, "--"+f)
+			}
+		}
+		if unused != nil {
+			fmt.Fprintf(e.stderr, "tessera: note: %s set the dictionary fill, which this run does not use; add --method ksvd for it\n", strings.Join(unused, ", "))
+		}
+	}
 
 	var given []string
 	for _, f := range []string{"mask", "mask-suffix", "missing-value"} {
