@@ -9,8 +9,10 @@
 //     Colour images are coded per channel in an orthonormal opponent space
 //     by default (measured better here than the joint RGB patches of
 //     J. Mairal, M. Elad, G. Sapiro, IEEE TIP 17(1), 2008, also available).
-//   - Inpaint: the missing-pixel method of Mairal, Elad & Sapiro (2008):
-//     masked K-SVD and OMP restricted to the observed pixels.
+//   - Inpaint: iterated DCT thresholding with the known pixels reset
+//     (O. G. Guleryuz, IEEE TIP 15(3), 2006) for noise-free frames, or the
+//     method of Mairal, Elad & Sapiro (2008): masked K-SVD and OMP
+//     restricted to the observed pixels (Options.Fill).
 //   - DenoisePhoton: photon-limited frames through the generalized Anscombe
 //     transform and its closed-form unbiased inverse (M. Mäkitalo, A. Foi,
 //     IEEE TIP 22(1), 2013).

@@ -52,7 +52,7 @@ type record struct {
 type Inpainting struct {
 	Mask   string `json:"mask"`   // the mask file, or "value=V" for --missing-value
 	Filled *int   `json:"filled"` // pixels given a value
-	Passes *int   `json:"passes"` // sparse passes run
+	Passes *int   `json:"passes"` // passes run over the holes
 	Note   string `json:"note,omitempty"`
 }
 
