@@ -4,8 +4,9 @@ import (
 	"fmt"
 	"os"
 	"strconv"
-	"strings"
 	"testing"
+
+	"tessera/restore/internal/testkit"
 )
 
 // BenchmarkKodakProtocol runs the project's Kodak protocol (see
@@ -13,34 +14,18 @@ import (
 //
 //	go test ./restore -run x -bench KodakProtocol -benchtime 1x
 //
-// TESSERA_BENCH_SIGMAS (default "15,25,50"), TESSERA_BENCH_LIMIT (images),
-// TESSERA_BENCH_COLOR=1 (RGB instead of gray) and TESSERA_BENCH_TRAIN /
+// TESSERA_BENCH_SIGMAS (default "15,25,50"), TESSERA_BENCH_LIMIT (the first
+// n images) or TESSERA_BENCH_IMAGES (numbers, "3,19"), TESSERA_BENCH_CROP
+// (centre crops of that side), TESSERA_BENCH_COLOR=1 (RGB instead of
+// gray) and TESSERA_BENCH_TRAIN /
 // TESSERA_BENCH_ROUNDS / TESSERA_BENCH_STRIDE (option overrides) narrow or vary a run.
 func BenchmarkKodakProtocol(b *testing.B) {
-	sigmas := []float64{15, 25, 50}
-	if s := os.Getenv("TESSERA_BENCH_SIGMAS"); s != "" {
-		sigmas = nil
-		for _, f := range strings.Split(s, ",") {
-			v, err := strconv.ParseFloat(f, 64)
-			if err != nil {
-				b.Fatal(err)
-			}
-			sigmas = append(sigmas, v)
-		}
-	}
-	limit := 24
-	if s := os.Getenv("TESSERA_BENCH_LIMIT"); s != "" {
-		limit, _ = strconv.Atoi(s)
-	}
+	sigmas := testkit.BenchSigmas(b)
 	color := os.Getenv("TESSERA_BENCH_COLOR") == "1"
+	names, clean := testkit.BenchKodak(b)
 	var imgs []BenchImage
-	for i := 1; i <= limit; i++ {
-		name := fmt.Sprintf("kodim%02d.png", i)
-		img := loadPNG(b, sharedPath(b, "kodak", name))
-		if !color {
-			img = kodakGray(b, name)
-		}
-		imgs = append(imgs, BenchImage{Name: name, Clean: img})
+	for i, name := range names {
+		imgs = append(imgs, BenchImage{Name: name, Clean: clean[i]})
 	}
 	b.ResetTimer()
 	for it := 0; it < b.N; it++ {

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"tessera/restore"
+	"tessera/restore/internal/testkit"
 	"tessera/restore/quality"
 )
 
@@ -29,49 +30,14 @@ import (
 // TESSERA_GROUP_PARAMS ("Window=15,Group=32") overrides DefaultParams and
 // TESSERA_BENCH_OPTS ("Bound=1.1") overrides restore.Defaults for both.
 func BenchmarkGroupKodak(b *testing.B) {
-	sigmas := []float64{15, 25, 50}
-	if s := os.Getenv("TESSERA_BENCH_SIGMAS"); s != "" {
-		sigmas = nil
-		for _, f := range strings.Split(s, ",") {
-			v, err := strconv.ParseFloat(f, 64)
-			if err != nil {
-				b.Fatal(err)
-			}
-			sigmas = append(sigmas, v)
-		}
-	}
-	var nums []int
-	limit := 24
-	if s := os.Getenv("TESSERA_BENCH_LIMIT"); s != "" {
-		limit, _ = strconv.Atoi(s)
-	}
-	for i := 1; i <= limit; i++ {
-		nums = append(nums, i)
-	}
-	if s := os.Getenv("TESSERA_BENCH_IMAGES"); s != "" {
-		nums = nil
-		for _, f := range strings.Split(s, ",") {
-			v, err := strconv.Atoi(f)
-			if err != nil {
-				b.Fatal(err)
-			}
-			nums = append(nums, v)
-		}
-	}
+	sigmas := testkit.BenchSigmas(b)
 	crop, _ := strconv.Atoi(os.Getenv("TESSERA_BENCH_CROP"))
 	color := os.Getenv("TESSERA_BENCH_COLOR") == "1"
 	withKSVD := os.Getenv("TESSERA_BENCH_KSVD") != "0"
+	names, clean := testkit.BenchKodak(b)
 	var imgs []restore.BenchImage
-	for _, i := range nums {
-		name := fmt.Sprintf("kodim%02d.png", i)
-		img := loadPNG(b, sharedPath(b, "kodak", name))
-		if !color {
-			img = kodakGray(b, name)
-		}
-		if crop > 0 {
-			img = centreCrop(img, min(crop, img.W), min(crop, img.H))
-		}
-		imgs = append(imgs, restore.BenchImage{Name: name, Clean: img})
+	for i, name := range names {
+		imgs = append(imgs, restore.BenchImage{Name: name, Clean: clean[i]})
 	}
 	b.ResetTimer()
 	for it := 0; it < b.N; it++ {

@@ -1,15 +1,21 @@
-// Package testkit holds what the tests of restore and its packages share:
-// finding ../shared beside the module root and reading its PNGs exactly.
+// Package testkit holds what the tests and benchmarks of restore and its
+// packages share: finding ../shared beside the module root, reading its
+// PNGs exactly, the Kodak protocol's gray images and scoring, and the
+// TESSERA_BENCH_* settings of the Kodak benchmarks.
 package testkit
 
 import (
+	"fmt"
 	"image"
 	"image/png"
 	"os"
 	"path/filepath"
+	"strconv"
+	"strings"
 	"testing"
 
 	"tessera/patches"
+	"tessera/restore/quality"
 )
 
 // SharedPath joins elem under ../shared (beside the module root), or skips
@@ -69,4 +75,88 @@ func LoadPNG(t testing.TB, path string) *patches.Image {
 	}
 	t.Fatalf("%s: unexpected PNG type %T", path, m)
 	return nil
+}
+
+// KodakGray is a Kodak image in BT.601 gray, rounded (the project's
+// protocol).
+func KodakGray(t testing.TB, name string) *patches.Image {
+	t.Helper()
+	return quality.Luma(LoadPNG(t, SharedPath(t, "kodak", name)), true)
+}
+
+// CentreCrop is the w×h crop at the centre of img.
+func CentreCrop(img *patches.Image, w, h int) *patches.Image {
+	return img.Crop((img.W-w)/2, (img.H-h)/2, w, h)
+}
+
+// PSNR scores test after rounding and clipping, as a file would be stored.
+func PSNR(t testing.TB, ref, test *patches.Image) float64 {
+	t.Helper()
+	q := test.Clone()
+	q.Quantize()
+	v, err := quality.PSNR(ref, q)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return v
+}
+
+// BenchSigmas are the noise levels of a Kodak benchmark run:
+// TESSERA_BENCH_SIGMAS ("15,25,50" by default).
+func BenchSigmas(b testing.TB) []float64 {
+	s := os.Getenv("TESSERA_BENCH_SIGMAS")
+	if s == "" {
+		return []float64{15, 25, 50}
+	}
+	var out []float64
+	for _, f := range strings.Split(s, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(f), 64)
+		if err != nil {
+			b.Fatalf("TESSERA_BENCH_SIGMAS: %v", err)
+		}
+		out = append(out, v)
+	}
+	return out
+}
+
+// BenchKodak loads the clean images of a Kodak benchmark run, all 24 or
+// the first TESSERA_BENCH_LIMIT, or those numbered in TESSERA_BENCH_IMAGES
+// ("3,19"); gray by the protocol unless TESSERA_BENCH_COLOR=1, centre
+// crops of side TESSERA_BENCH_CROP when set.
+func BenchKodak(b testing.TB) (names []string, imgs []*patches.Image) {
+	var nums []int
+	limit := 24
+	if s := os.Getenv("TESSERA_BENCH_LIMIT"); s != "" {
+		var err error
+		if limit, err = strconv.Atoi(s); err != nil {
+			b.Fatalf("TESSERA_BENCH_LIMIT: %v", err)
+		}
+	}
+	for i := 1; i <= limit; i++ {
+		nums = append(nums, i)
+	}
+	if s := os.Getenv("TESSERA_BENCH_IMAGES"); s != "" {
+		nums = nil
+		for _, f := range strings.Split(s, ",") {
+			v, err := strconv.Atoi(strings.TrimSpace(f))
+			if err != nil {
+				b.Fatalf("TESSERA_BENCH_IMAGES: %v", err)
+			}
+			nums = append(nums, v)
+		}
+	}
+	crop, _ := strconv.Atoi(os.Getenv("TESSERA_BENCH_CROP"))
+	color := os.Getenv("TESSERA_BENCH_COLOR") == "1"
+	for _, i := range nums {
+		name := fmt.Sprintf("kodim%02d.png", i)
+		img := LoadPNG(b, SharedPath(b, "kodak", name))
+		if !color {
+			img = quality.Luma(img, true)
+		}
+		if crop > 0 {
+			img = CentreCrop(img, min(crop, img.W), min(crop, img.H))
+		}
+		names, imgs = append(names, name), append(imgs, img)
+	}
+	return names, imgs
 }
