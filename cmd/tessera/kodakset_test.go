@@ -15,28 +15,10 @@ import (
 	"testing"
 
 	"tessera/cmd/tessera/internal/imgfile"
+	"tessera/patches/patchtest"
 )
 
-// sharedRef joins elem under ../shared beside the module root, or skips
-// the test with a message when that folder is absent.
-func sharedRef(t testing.TB, elem ...string) string {
-	t.Helper()
-	wd, err := os.Getwd()
-	if err != nil {
-		t.Fatal(err)
-	}
-	for d := wd; filepath.Dir(d) != d; d = filepath.Dir(d) {
-		if _, err := os.Stat(filepath.Join(d, "go.mod")); err == nil {
-			s := filepath.Join(d, "..", "shared")
-			if _, err := os.Stat(s); err != nil {
-				t.Skipf("reference data %s is absent; the checks against outside values need it", s)
-			}
-			return filepath.Join(append([]string{s}, elem...)...)
-		}
-	}
-	t.Skip("module root not found; cannot locate ../shared")
-	return ""
-}
+var sharedRef = patchtest.SharedPath
 
 // kodakServer serves the files of ../shared/kodak, with body overriding
 // the content of some names, and counts the requests.

@@ -7,6 +7,8 @@ import (
 	"os"
 	"path/filepath"
 	"testing"
+
+	"tessera/patches/patchtest"
 )
 
 // FuzzDecode: Decode must never panic, must fail only with this package's
@@ -33,7 +35,7 @@ func FuzzDecode(f *testing.F) {
 		{tagSamples, typeShort, []uint32{2}}, {tagRowsPerStrip, typeLong, []uint32{1}},
 		{tagStripCounts, typeLong, []uint32{4}}, {tagExtraSamples, typeShort, []uint32{extraAssociated}}}))
 	f.Add([]byte("P5\n# c\n3 1\n15\n\x00\x07\x0f"))
-	if shared := findShared(); shared != "" {
+	if shared := patchtest.Shared(); shared != "" {
 		files, _ := filepath.Glob(filepath.Join(shared, "formats", "*"))
 		for _, name := range files {
 			if b, err := os.ReadFile(name); err == nil && len(b) < 16<<10 {

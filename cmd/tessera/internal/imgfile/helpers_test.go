@@ -8,42 +8,15 @@ import (
 	"encoding/hex"
 	"hash/crc32"
 	"math/rand/v2"
-	"os"
-	"path/filepath"
 	"testing"
-)
 
-// findShared returns ../shared beside the module root, or "".
-func findShared() string {
-	dir, err := os.Getwd()
-	if err != nil {
-		return ""
-	}
-	for {
-		if _, err := os.Stat(filepath.Join(dir, "go.mod")); err == nil {
-			break
-		}
-		parent := filepath.Dir(dir)
-		if parent == dir {
-			return ""
-		}
-		dir = parent
-	}
-	shared := filepath.Join(dir, "..", "shared")
-	if _, err := os.Stat(shared); err != nil {
-		return ""
-	}
-	return shared
-}
+	"tessera/patches/patchtest"
+)
 
 // sharedDir returns ../shared or skips the test.
 func sharedDir(t testing.TB) string {
 	t.Helper()
-	s := findShared()
-	if s == "" {
-		t.Skip("reference data ../shared beside the module root is absent (a fresh clone has none); skipping")
-	}
-	return s
+	return patchtest.SharedPath(t)
 }
 
 // samplesHash is the SHA-256 of the samples row-major with channels
