@@ -113,18 +113,9 @@ func denoisePlane(img *patches.Image, s255 float64, opt Options) (*patches.Image
 	}
 	if opt.Rounds > 0 {
 		X, m := trainingSet(img, p, opt.Train, learn.SubSeed(opt.Seed, "train"))
-		d, _ = learn.KSVD(d, X, m, learn.KSVDOptions{
-			Rounds: opt.Rounds, Eps: eps, MaxAtoms: maxAtoms, Workers: opt.Workers, Single: true,
-			Progress: func(s learn.RoundStats) {
-				if opt.Progress != nil {
-					opt.Progress(Stage{Name: "train", Round: s.Round, Rounds: s.Rounds})
-				}
-			},
-		})
+		d, _ = opt.ksvd(d, X, m, learn.KSVDOptions{Eps: eps, MaxAtoms: maxAtoms})
 	}
-	coder := learn.NewCoder(d)
-	coder.Workers = opt.Workers
-	coder.Single = true
+	coder := opt.coder(d)
 	lambda := opt.Lambda
 	if lambda == 0 {
 		lambda = 30 / s255

@@ -135,24 +135,14 @@ func inpaintPlane(img *patches.Image, missing []bool, s255 float64, opt Options)
 	if opt.Rounds > 0 {
 		X, known, eps, m := maskedTrainingSet(img, weight, p, opt.Train, perEntry, learn.SubSeed(opt.Seed, "inpaint-train"))
 		if m >= d.K {
-			d, _ = learn.KSVD(d, X, m, learn.KSVDOptions{
-				Rounds: opt.Rounds, EpsEach: eps, MaxAtoms: maxAtoms, Known: known,
-				Workers: opt.Workers, Single: true,
-				Progress: func(s learn.RoundStats) {
-					if opt.Progress != nil {
-						opt.Progress(Stage{Name: "train", Round: s.Round, Rounds: s.Rounds})
-					}
-				},
-			})
+			d, _ = opt.ksvd(d, X, m, learn.KSVDOptions{EpsEach: eps, MaxAtoms: maxAtoms, Known: known})
 		}
 	}
 	// A constant atom leads every code, so that each patch's level is
 	// fitted jointly with its structure on the observed pixels (a mean of
 	// the observed pixels alone is biased where they are few).
 	lead := withConstant(d)
-	coder := learn.NewCoder(lead)
-	coder.Workers = opt.Workers
-	coder.Single = true
+	coder := opt.coder(lead)
 	coder.Lead = true
 	cur := harmonicStart(img, missing)
 	res := &InpaintResult{Dict: d}

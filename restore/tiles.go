@@ -106,18 +106,9 @@ func denoiseTiles(src, dst *patches.Image, scale, s255 float64, tile int, opt Op
 		for i, q := range pos {
 			extractScaled(img, q%nx, q/nx, p, scale, X[i*n:(i+1)*n])
 		}
-		d, _ = learn.KSVD(d, X, len(pos), learn.KSVDOptions{
-			Rounds: opt.Rounds, Eps: eps, MaxAtoms: maxAtoms, Workers: opt.Workers, Single: true,
-			Progress: func(s learn.RoundStats) {
-				if opt.Progress != nil {
-					opt.Progress(Stage{Name: "train", Round: s.Round, Rounds: s.Rounds})
-				}
-			},
-		})
+		d, _ = opt.ksvd(d, X, len(pos), learn.KSVDOptions{Eps: eps, MaxAtoms: maxAtoms})
 	}
-	coder := learn.NewCoder(d)
-	coder.Workers = opt.Workers
-	coder.Single = true
+	coder := opt.coder(d)
 	lambda := opt.Lambda
 	if lambda == 0 {
 		lambda = 30 / s255

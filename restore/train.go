@@ -95,18 +95,9 @@ func Train(n int, image func(i int) (*patches.Image, float64, error), opt Option
 	}
 	var codes *learn.Codes
 	if opt.Rounds > 0 {
-		d, codes = learn.KSVD(d, X, m, learn.KSVDOptions{
-			Rounds: opt.Rounds, EpsEach: eps, MaxAtoms: sn / 2, Workers: opt.Workers, Single: true,
-			Progress: func(s learn.RoundStats) {
-				if opt.Progress != nil {
-					opt.Progress(Stage{Name: "train", Round: s.Round, Rounds: s.Rounds})
-				}
-			},
-		})
+		d, codes = opt.ksvd(d, X, m, learn.KSVDOptions{EpsEach: eps, MaxAtoms: sn / 2})
 	} else {
-		c := learn.NewCoder(d)
-		c.Workers, c.Single = opt.Workers, true
-		codes = c.Code(X, m, 0, eps, sn/2)
+		codes = opt.coder(d).Code(X, m, 0, eps, sn/2)
 	}
 	tr := &Trained{Dict: d, Uses: make([]int, d.K), Patches: m, ImageChannels: channels}
 	for _, a := range codes.Idx {
@@ -180,4 +171,23 @@ func extractScaled(img *patches.Image, x, y, p int, s float64, dst []float64) fl
 		dst[j] -= mean
 	}
 	return mean
+}
+
+// ksvd trains d on the m signals of X with ko's stopping rule and opt's
+// rounds, workers and progress, on the float32 correlation path.
+func (opt Options) ksvd(d *learn.Dict, X []float64, m int, ko learn.KSVDOptions) (*learn.Dict, *learn.Codes) {
+	ko.Rounds, ko.Workers, ko.Single = opt.Rounds, opt.Workers, true
+	ko.Progress = func(s learn.RoundStats) {
+		if opt.Progress != nil {
+			opt.Progress(Stage{Name: "train", Round: s.Round, Rounds: s.Rounds})
+		}
+	}
+	return learn.KSVD(d, X, m, ko)
+}
+
+// coder codes with d on opt's workers, on the float32 correlation path.
+func (opt Options) coder(d *learn.Dict) *learn.Coder {
+	c := learn.NewCoder(d)
+	c.Workers, c.Single = opt.Workers, true
+	return c
 }
