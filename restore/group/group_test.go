@@ -106,7 +106,9 @@ func TestGroupColour(t *testing.T) {
 		if po < pn+7 {
 			t.Errorf("colour mode %d: %.2f dB, want ≥ noisy %.2f + 7", mode, po, pn)
 		}
-		if want := map[restore.ColorMode]int{restore.ColorJoint: 192, restore.ColorSeparate: 64}[mode]; res.Dict.N != want {
+		// The first pass's dictionary, on its own patch side.
+		q := DefaultParams(25).Patch
+		if want := map[restore.ColorMode]int{restore.ColorJoint: 3 * q * q, restore.ColorSeparate: q * q}[mode]; res.Dict.N != want {
 			t.Errorf("colour mode %d: atoms of length %d, want %d", mode, res.Dict.N, want)
 		}
 	}
@@ -118,7 +120,7 @@ func TestGroupSameBitsWhateverWorkers(t *testing.T) {
 	for i := range img.Pix {
 		img.Pix[i] = float32(128 + 40*math.Sin(float64(i%64)/5) + 20*r.NormFloat64())
 	}
-	for _, second := range []Second{SecondNone, SecondWiener} {
+	for _, second := range []Second{SecondNone, SecondWiener, SecondCollab} {
 		for _, mode := range []restore.ColorMode{restore.ColorJoint, restore.ColorSeparate} {
 			opt := restore.Defaults(20)
 			opt.Train, opt.Rounds, opt.Atoms, opt.Color = 800, 2, 64, mode
@@ -145,7 +147,7 @@ func TestGroupSameBitsWhateverWorkers(t *testing.T) {
 func TestSecondPasses(t *testing.T) {
 	clean := centreCrop(kodakGray(t, "kodim19.png"), 96, 96)
 	noisy := restore.AddNoise(clean, 25, 1, "kodim19.png")
-	for _, second := range []Second{SecondGuided, SecondIterative, SecondWiener} {
+	for _, second := range []Second{SecondGuided, SecondIterative, SecondWiener, SecondCollab} {
 		opt := restore.Defaults(25)
 		opt.Train, opt.Rounds = 2000, 2
 		var stages []restore.Stage
@@ -161,13 +163,17 @@ func TestSecondPasses(t *testing.T) {
 		if po < pn+5 {
 			t.Errorf("second pass %d: %.2f dB, want ≥ noisy %.2f + 5", second, po, pn)
 		}
+		rounds := 3 // SecondCollab trains no second dictionary
+		if second == SecondCollab {
+			rounds = 2
+		}
 		trained, coded := 0, 0
 		for _, s := range stages {
 			switch s.Name {
 			case "train":
 				trained++
-				if s.Round != trained || s.Rounds != 3 {
-					t.Errorf("second pass %d: train stage %d/%d, want %d/3", second, s.Round, s.Rounds, trained)
+				if s.Round != trained || s.Rounds != rounds {
+					t.Errorf("second pass %d: train stage %d/%d, want %d/%d", second, s.Round, s.Rounds, trained, rounds)
 				}
 			case "code":
 				coded++
@@ -176,7 +182,7 @@ func TestSecondPasses(t *testing.T) {
 				}
 			}
 		}
-		if trained != 3 || coded == 0 || stages[len(stages)-1].Done != stages[len(stages)-1].Total {
+		if trained != rounds || coded == 0 || stages[len(stages)-1].Done != stages[len(stages)-1].Total {
 			t.Errorf("second pass %d: %d train and %d code stages, last %+v", second, trained, coded, stages[len(stages)-1])
 		}
 	}

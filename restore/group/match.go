@@ -30,7 +30,7 @@ type matchParams struct {
 
 // bandRows is the number of reference rows one task searches: the squared
 // differences of a row serve every reference that covers it.
-const bandRows = 4
+const bandRows = 8
 
 // match groups the patches of img with a box-sum search: for every offset
 // of the window, the squared differences of the image and its shifted copy
@@ -157,32 +157,27 @@ func searchBand(planes [][]float32, W, H int, xs, ys []int, j0, j1 int, mp match
 			}
 			xa, xb := xs[ia], xs[ib-1]+p
 			for y := ra; y < rb; y++ {
-				d := diff[xa:xb]
-				for c, pl := range planes {
+				pre := prefix[:xb-xa+1]
+				// Row sums over p samples at the reference columns, from
+				// prefix sums of the squared differences.
+				if len(planes) == 1 {
+					// One channel: both in one sweep (the same sums as
+					// sumRows).
+					pl := planes[0]
 					a := pl[y*W+xa : y*W+xb]
 					s := pl[(y+dy)*W+xa+dx : (y+dy)*W+xb+dx]
-					if c == 0 {
-						for t, v := range a {
-							e := v - s[t]
-							d[t] = e * e
-						}
-					} else {
-						for t, v := range a {
-							e := v - s[t]
-							d[t] += e * e
-						}
+					s = s[:len(a)]
+					pre = pre[:len(a)+1]
+					acc := 0.0
+					for t, v := range a {
+						e := v - s[t]
+						pre[t] = acc
+						acc += float64(e * e)
 					}
+					pre[len(a)] = acc
+				} else {
+					sumRows(planes, W, y, dy, dx, xa, xb, diff, pre)
 				}
-				// Row sums over p samples at the reference columns, from
-				// prefix sums (in float64, so the differences stay exact
-				// enough along a whole row).
-				pre := prefix[:xb-xa+1]
-				acc := 0.0
-				for t, v := range d {
-					pre[t] = acc
-					acc += float64(v)
-				}
-				pre[xb-xa] = acc
 				hrow := hsum[(y-y0)*nx : (y-y0+1)*nx]
 				for i := ia; i < ib; i++ {
 					o := xs[i] - xa
@@ -207,6 +202,9 @@ func searchBand(planes [][]float32, W, H int, xs, ys []int, j0, j1 int, mp match
 						continue
 					}
 					r := j*nx + ia + i
+					if cnt[r] == int32(k) && v > dist[r*k] {
+						continue // beyond a full heap's farthest (push's own test, without the call)
+					}
 					push(dist[r*k:(r+1)*k], pos[r*k:(r+1)*k], &cnt[r], v, int32(ys[j]*W+xs[ia+i])+delta)
 				}
 			}
@@ -254,4 +252,33 @@ func push(d []float32, p []int32, n *int32, v float32, q int32) {
 		i = c
 	}
 	d[i], p[i] = v, q
+}
+
+// sumRows fills pre with the prefix sums along row y of the squared
+// differences, summed over the channels, between the image and its copy
+// shifted by (dx, dy), over columns xa..xb−1 (in float64, so the
+// differences of prefix sums stay exact enough along a whole row).
+func sumRows(planes [][]float32, W, y, dy, dx, xa, xb int, diff []float32, pre []float64) {
+	d := diff[xa:xb]
+	for c, pl := range planes {
+		a := pl[y*W+xa : y*W+xb]
+		s := pl[(y+dy)*W+xa+dx : (y+dy)*W+xb+dx]
+		if c == 0 {
+			for t, v := range a {
+				e := v - s[t]
+				d[t] = e * e
+			}
+		} else {
+			for t, v := range a {
+				e := v - s[t]
+				d[t] += e * e
+			}
+		}
+	}
+	acc := 0.0
+	for t, v := range d {
+		pre[t] = acc
+		acc += float64(v)
+	}
+	pre[len(d)] = acc
 }
