@@ -22,7 +22,6 @@ import (
 	"tessera/learn"
 	"tessera/patches"
 	"tessera/restore"
-	"tessera/restore/group"
 	"tessera/restore/quality"
 )
 
@@ -525,7 +524,7 @@ func (cfg *benchConfig) benchImage(en benchEntry, con *console, workers int, pic
 			opt := cfg.den.options(s)
 			opt.Workers = workers
 			opt.Progress = func(st restore.Stage) { con.set(0, stageText(st)) }
-			r, noisy, out, dict, err := benchCase(clean, en.name, s, cfg.den.seed, opt, m)
+			r, noisy, out, dict, err := benchCase(clean, en.name, s, cfg.den.seed, opt, m, cfg.den.setPatch)
 			if err != nil {
 				return nil, runs, err
 			}
@@ -553,17 +552,14 @@ func (cfg *benchConfig) benchImage(en benchEntry, con *console, workers int, pic
 // and measuring the noisy image's SSIM too: noise of σ (0–255 scale,
 // scaled to the bit depth) without clipping, restoration, rounding and
 // clipping, then PSNR and SSIM against the clean image.
-func benchCase(clean *patches.Image, name string, sigma255 float64, seed uint64, opt restore.Options, method string) (benchRun, *patches.Image, *patches.Image, *learn.Dict, error) {
+func benchCase(clean *patches.Image, name string, sigma255 float64, seed uint64, opt restore.Options, method string, setPatch bool) (benchRun, *patches.Image, *patches.Image, *learn.Dict, error) {
 	sigma := sigma255 * clean.Peak() / 255
 	noisy := restore.AddNoise(clean, sigma, seed, name)
 	if method == methodDCT {
 		opt.Rounds = 0
 		opt.Dict = nil
 	}
-	den := restore.Denoise
-	if method == methodGroup {
-		den = group.Denoise
-	}
+	den := denoiser(method, setPatch)
 	t0 := time.Now()
 	out, res, err := den(noisy, sigma, opt)
 	dt := time.Since(t0).Seconds()

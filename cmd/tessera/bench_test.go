@@ -45,7 +45,7 @@ func TestBenchNoisyPSNR(t *testing.T) {
 		for i := range img.Pix {
 			img.Pix[i] = float32(img.Peak() * float64(i%768) / 767)
 		}
-		r, noisy, _, _, err := benchCase(img, "flat.png", 25, 1, opt, methodLearned)
+		r, noisy, _, _, err := benchCase(img, "flat.png", 25, 1, opt, methodLearned, false)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -81,7 +81,7 @@ func TestBenchCaseMatchesLibrary(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		got, _, _, dict, err := benchCase(img, "x.png", 25, 7, opt, m)
+		got, _, _, dict, err := benchCase(img, "x.png", 25, 7, opt, m, false)
 		if err != nil {
 			t.Fatal(err)
 		}

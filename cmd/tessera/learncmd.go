@@ -386,10 +386,11 @@ func (c *config) gaussDenoise(img *patches.Image, sigma float64, opt restore.Opt
 	}
 	large := c.tile > 0 && (img.W > c.tile || img.H > c.tile)
 	if c.method == methodGroup {
+		den := denoiser(methodGroup, c.setPatch)
 		if large {
-			return restore.DenoiseOverlapped(img, sigma, c.tile, group.TileMargin(opt.Patch), opt, group.Denoise)
+			return restore.DenoiseOverlapped(img, sigma, c.tile, group.TileMargin(opt.Patch), opt, den)
 		}
-		return group.Denoise(img, sigma, opt)
+		return den(img, sigma, opt)
 	}
 	if large {
 		return restore.DenoiseTiled(img, sigma, c.tile, opt)

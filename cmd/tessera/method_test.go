@@ -94,3 +94,20 @@ func TestBenchMethods(t *testing.T) {
 	}
 	tessera(t, dir, nil, nil, "bench", "--set", "set", "--compare", "bm").want(t, 2, `--compare "bm": unknown method; choose among dct, group and ksvd`)
 }
+
+// A --patch given on the command line is the group method's patch in both
+// stages; without it the first stage learns on group.DefaultParams' 9×9.
+func TestGroupPatchFlag(t *testing.T) {
+	noisy, _ := testImage(48, 48, 1, 8, false, 3)
+	opt := restore.Defaults(10)
+	opt.Atoms, opt.Train, opt.Rounds, opt.Patch = 64, 1000, 1, 6
+	for set, want := range map[bool]int{true: 36, false: 81} {
+		_, res, err := denoiser(methodGroup, set)(noisy.Img, 10, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if res.Dict.N != want {
+			t.Errorf("--patch given %v: atoms of %d samples, want %d", set, res.Dict.N, want)
+		}
+	}
+}

@@ -116,8 +116,12 @@ func DefaultParams(sigma255 float64) Params {
 
 // TileMargin is the overlap that restore.DenoiseOverlapped needs around
 // each tile for the group method with p×p patches: a patch and a search
-// radius, so that every pixel kept from a tile was grouped as in a whole run.
-func TileMargin(p int) int { return p + DefaultParams(25).Window/2 }
+// radius of the wider of the two stages, so that every pixel kept from a
+// tile was grouped as in a whole run.
+func TileMargin(p int) int {
+	pr := DefaultParams(25)
+	return max(max(p, pr.Patch)+pr.Window/2, p+pr.Window2/2)
+}
 
 // boundScale is the bound scale of channel c in the first pass.
 func (pr *Params) boundScale(c int) float64 {
