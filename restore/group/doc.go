@@ -45,9 +45,10 @@
 // package benchmark (BenchmarkGroupKodak) measures them against the
 // default method on the Kodak protocol (gray; all 24 images or the first
 // 6). With DefaultParams the method gains 0.39, 0.50 and 0.57 dB over
-// restore.Denoise at σ = 15, 25 and 50 on the 24 images, in 2.4, 3.5 and
-// 2.8 times its time; the first pass alone gained 0.33, 0.34 and 0.45 dB
-// in 2.5 to 2.9 times.
+// restore.Denoise at σ = 15, 25 and 50 on the 24 images, in 2.9, 4.4 and
+// 4.1 times its CPU time (one run, the machine shared); the first pass
+// alone, with the earlier 8×8 patches and finer grids, gained 0.33, 0.34
+// and 0.45 dB in 2.5 to 2.9 times.
 //
 // What the defaults rest on, at σ = 25 on 6 images: the SecondCollab
 // stage adds 0.11 dB to the first pass; behind it a first pass on 9×9
