@@ -2,9 +2,7 @@ package learn
 
 import (
 	"math"
-	"runtime"
 	"sync"
-	"sync/atomic"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas32"
@@ -185,38 +183,19 @@ func (c *Coder) run(m, maxAtoms int, code blockFunc) *Codes {
 	}
 	parts := make([]part, nb)
 	errs := make([]float64, m)
-	workers := c.Workers
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
+	made := Blocks(nb, c.Workers, func() *scratch { return c.getScratch(maxAtoms) }, func(b int, s *scratch) {
+		lo := b * blockSize
+		hi := min(lo+blockSize, m)
+		p := &parts[b]
+		p.start = make([]int32, hi-lo+1)
+		code(s, lo, hi, maxAtoms, p.start, errs)
+		used := p.start[hi-lo]
+		p.idx = append([]int32(nil), s.idx[:used]...)
+		p.val = append([]float64(nil), s.val[:used]...)
+	})
+	for _, s := range made {
+		c.pool.Put(s)
 	}
-	if workers > nb {
-		workers = nb
-	}
-	var next int64 = -1
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			s := c.getScratch(maxAtoms)
-			defer c.pool.Put(s)
-			for {
-				b := int(atomic.AddInt64(&next, 1))
-				if b >= nb {
-					return
-				}
-				lo := b * blockSize
-				hi := min(lo+blockSize, m)
-				p := &parts[b]
-				p.start = make([]int32, hi-lo+1)
-				code(s, lo, hi, maxAtoms, p.start, errs)
-				used := p.start[hi-lo]
-				p.idx = append([]int32(nil), s.idx[:used]...)
-				p.val = append([]float64(nil), s.val[:used]...)
-			}
-		}()
-	}
-	wg.Wait()
 	total := 0
 	for _, p := range parts {
 		total += len(p.idx)

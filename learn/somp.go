@@ -4,7 +4,6 @@ import (
 	"math"
 	"runtime"
 	"sync"
-	"sync/atomic"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas32"
@@ -150,31 +149,16 @@ func (c *Coder) somp(X []float64, members []int32, groups []int32, opt SOMPOptio
 	}
 	parts := make([]part, nb)
 	errs := make([]float64, m)
-	workers = max(1, min(workers, nb))
-	var next int64 = -1
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			s := newSompScratch(n, k, capSig, gmax, maxAtoms, c.Single)
-			for {
-				b := int(atomic.AddInt64(&next, 1))
-				if b >= nb {
-					return
-				}
-				g0, g1 := bstart[b], bstart[b+1]
-				lo, hi := int(groups[g0]), int(groups[g1])
-				p := &parts[b]
-				p.start = make([]int32, hi-lo+1)
-				c.sompBlock(s, X, members, pool, groups, g0, g1, opt, maxAtoms, p.start, errs)
-				used := p.start[hi-lo]
-				p.idx = append([]int32(nil), s.idx[:used]...)
-				p.val = append([]float64(nil), s.val[:used]...)
-			}
-		}()
-	}
-	wg.Wait()
+	Blocks(nb, workers, func() *sompScratch { return newSompScratch(n, k, capSig, gmax, maxAtoms, c.Single) }, func(b int, s *sompScratch) {
+		g0, g1 := bstart[b], bstart[b+1]
+		lo, hi := int(groups[g0]), int(groups[g1])
+		p := &parts[b]
+		p.start = make([]int32, hi-lo+1)
+		c.sompBlock(s, X, members, pool, groups, g0, g1, opt, maxAtoms, p.start, errs)
+		used := p.start[hi-lo]
+		p.idx = append([]int32(nil), s.idx[:used]...)
+		p.val = append([]float64(nil), s.val[:used]...)
+	})
 	if pool != nil {
 		poolBuffers.Put(pool)
 	}
@@ -360,33 +344,21 @@ func (c *Coder) poolCorrelations(P []float64, mp, workers int) *sompPool {
 	}
 	pl.corr, pl.xx = pl.corr[:mp*k], pl.xx[:mp]
 	nb := (mp + sompBlockSignals - 1) / sompBlockSignals
-	workers = max(1, min(workers, nb))
-	var next int64 = -1
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			var s sompScratch
-			if c.Single {
-				s.xs32 = make([]float32, sompBlockSignals*n)
-				s.cr32 = make([]float32, sompBlockSignals*k)
-			}
-			for {
-				b := int(atomic.AddInt64(&next, 1))
-				if b >= nb {
-					return
-				}
-				lo, hi := b*sompBlockSignals, min((b+1)*sompBlockSignals, mp)
-				c.sompCorrelate(&s, P[lo*n:hi*n], hi-lo, pl.corr[lo*k:hi*k])
-				for i := lo; i < hi; i++ {
-					x := P[i*n : (i+1)*n]
-					pl.xx[i] = dot(x, x)
-				}
-			}
-		}()
-	}
-	wg.Wait()
+	Blocks(nb, workers, func() *sompScratch {
+		s := &sompScratch{}
+		if c.Single {
+			s.xs32 = make([]float32, sompBlockSignals*n)
+			s.cr32 = make([]float32, sompBlockSignals*k)
+		}
+		return s
+	}, func(b int, s *sompScratch) {
+		lo, hi := b*sompBlockSignals, min((b+1)*sompBlockSignals, mp)
+		c.sompCorrelate(s, P[lo*n:hi*n], hi-lo, pl.corr[lo*k:hi*k])
+		for i := lo; i < hi; i++ {
+			x := P[i*n : (i+1)*n]
+			pl.xx[i] = dot(x, x)
+		}
+	})
 	return pl
 }
 

@@ -1,11 +1,9 @@
 package group
 
 import (
-	"runtime"
 	"sort"
-	"sync"
-	"sync/atomic"
 
+	"tessera/learn"
 	"tessera/patches"
 )
 
@@ -50,36 +48,21 @@ func match(img *patches.Image, mp matchParams, workers int) *grouping {
 	pos := make([]int32, nref*k)
 	cnt := make([]int32, nref)
 	nb := (len(ys) + bandRows - 1) / bandRows
-	if workers <= 0 {
-		workers = runtime.GOMAXPROCS(0)
-	}
-	workers = max(1, min(workers, nb))
 	planes := make([][]float32, img.C)
 	for c := range planes {
 		planes[c] = img.Plane(c)
 	}
-	var next int64 = -1
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			rows := (bandRows-1)*mp.step + p
-			diff := make([]float32, W)
-			hsum := make([]float32, rows*nx)
-			vsum := make([]float32, nx)
-			prefix := make([]float64, W+1)
-			for {
-				b := int(atomic.AddInt64(&next, 1))
-				if b >= nb {
-					return
-				}
-				j0, j1 := b*bandRows, min((b+1)*bandRows, len(ys))
-				searchBand(planes, W, H, xs, ys, j0, j1, mp, diff, hsum, vsum, prefix, dist, pos, cnt)
-			}
-		}()
+	type bufs struct {
+		diff, hsum, vsum []float32
+		prefix           []float64
 	}
-	wg.Wait()
+	rows := (bandRows-1)*mp.step + p
+	learn.Blocks(nb, workers, func() *bufs {
+		return &bufs{make([]float32, W), make([]float32, rows*nx), make([]float32, nx), make([]float64, W+1)}
+	}, func(b int, s *bufs) {
+		j0, j1 := b*bandRows, min((b+1)*bandRows, len(ys))
+		searchBand(planes, W, H, xs, ys, j0, j1, mp, s.diff, s.hsum, s.vsum, s.prefix, dist, pos, cnt)
+	})
 
 	g := &grouping{w: W, refs: make([]int32, nref), start: make([]int32, nref+1)}
 	total := 0

@@ -3,8 +3,6 @@ package group
 import (
 	"math"
 	"runtime"
-	"sync"
-	"sync/atomic"
 
 	"tessera/learn"
 	"tessera/patches"
@@ -179,29 +177,15 @@ const reconstructBlock = 1024
 func reconstruct(codes *learn.Codes, d *learn.Dict, means, out []float64, workers int) {
 	m, n := codes.Len(), d.N
 	nb := (m + reconstructBlock - 1) / reconstructBlock
-	workers = max(1, min(workers, nb))
-	var next int64 = -1
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for {
-				b := int(atomic.AddInt64(&next, 1))
-				if b >= nb {
-					return
-				}
-				for i := b * reconstructBlock; i < min((b+1)*reconstructBlock, m); i++ {
-					r := out[i*n : (i+1)*n]
-					codes.Reconstruct(d, i, r)
-					for j := range r {
-						r[j] += means[i]
-					}
-				}
+	learn.Blocks(nb, workers, nil, func(b int, _ struct{}) {
+		for i := b * reconstructBlock; i < min((b+1)*reconstructBlock, m); i++ {
+			r := out[i*n : (i+1)*n]
+			codes.Reconstruct(d, i, r)
+			for j := range r {
+				r[j] += means[i]
 			}
-		}()
-	}
-	wg.Wait()
+		}
+	})
 }
 
 // trainingGroups draws whole groups in a seeded order until they hold at
