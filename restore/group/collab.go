@@ -3,8 +3,6 @@ package group
 import (
 	"math"
 	"runtime"
-	"sync"
-	"sync/atomic"
 
 	"tessera/learn"
 	"tessera/patches"
@@ -37,10 +35,31 @@ type collabIn struct {
 // and the weights are per group). Sums run in group order, so the result
 // does not depend on the worker count.
 func collab(in collabIn) *patches.Image {
+	s2 := in.sigma * in.sigma
+	return filterGroups(in, func(bn, bp []float64, k int) float64 {
+		ks2 := float64(k) * s2
+		wsum := 0.0
+		for i, a := range bp {
+			f := a * a / (a*a + ks2)
+			wsum += f * f
+			bn[i] *= f
+		}
+		return 1 / math.Max(wsum, 1e-3)
+	})
+}
+
+// groupFilter shrinks the 3-D spectrum bn of a group of k members (k×n,
+// after the unnormalised Walsh–Hadamard transform, so scaled by √k) in
+// place, given the pilot's spectrum bp (nil without a pilot), and returns
+// the group's weight in the average back.
+type groupFilter func(bn, bp []float64, k int) float64
+
+// filterGroups is the machinery of collab with the shrinkage of each
+// group left to filter; in.pilot may be nil if filter does not use it.
+func filterGroups(in collabIn, filter groupFilter) *patches.Image {
 	noisy, pilot, g, p := in.noisy, in.pilot, in.g, in.p
 	W, H, C := noisy.W, noisy.H, noisy.C
 	n := C * p * p
-	s2 := in.sigma * in.sigma
 	workers := in.workers
 	if workers <= 0 {
 		workers = runtime.GOMAXPROCS(0)
@@ -83,7 +102,10 @@ func collab(in collabIn) *patches.Image {
 		}
 		np := (yb - ya + 1) * PW
 		loc := func(q int32) int { return (int(q)/W-ya)*PW + int(q)%W }
-		specN, specP, accS = grow32(specN, np*n), grow32(specP, np*n), grow32(accS, np*n)
+		specN, accS = grow32(specN, np*n), grow32(accS, np*n)
+		if pilot != nil {
+			specP = grow32(specP, np*n)
+		}
 		clear(accS)
 		accW = grow(accW, np)
 		clear(accW)
@@ -100,7 +122,9 @@ func collab(in collabIn) *patches.Image {
 		rows := yb - ya + 1
 		rbuf = grow(rbuf, C*(rows+p-1)*PW*p)
 		sp.forward(noisy, ya, rows, used, specN, rbuf)
-		sp.forward(pilot, ya, rows, used, specP, rbuf)
+		if pilot != nil {
+			sp.forward(pilot, ya, rows, used, specP, rbuf)
+		}
 		for c0 := r0; c0 < r1; c0 += chunkGroups {
 			c1 := min(c0+chunkGroups, r1)
 			for r := c0; r < c1; r++ {
@@ -111,30 +135,30 @@ func collab(in collabIn) *patches.Image {
 				for gi := g0; gi < g1; gi++ {
 					mem := members(c0 + gi)
 					k := len(mem)
-					bn, bp := s.block(k*n, 0), s.block(k*n, 1)
+					bn := s.block(k*n, 0)
+					var bp []float64
 					for i, q := range mem {
 						c := loc(q)
 						for j, v := range specN[c*n : (c+1)*n] {
 							bn[i*n+j] = float64(v)
 						}
-						for j, v := range specP[c*n : (c+1)*n] {
-							bp[i*n+j] = float64(v)
+					}
+					if pilot != nil {
+						bp = s.block(k*n, 1)
+						for i, q := range mem {
+							c := loc(q)
+							for j, v := range specP[c*n : (c+1)*n] {
+								bp[i*n+j] = float64(v)
+							}
 						}
+						whtRows(bp, k, n)
 					}
 					// Unnormalised transforms scale the coefficients by √k
 					// and the round trip by k, taken out in the sum below.
 					whtRows(bn, k, n)
-					whtRows(bp, k, n)
-					ks2 := float64(k) * s2
-					wsum := 0.0
-					for i, a := range bp {
-						f := a * a / (a*a + ks2)
-						wsum += f * f
-						bn[i] *= f
-					}
+					gw[gi] = filter(bn, bp, k)
 					whtRows(bn, k, n)
 					copy(rec[recOff[gi]*n:recOff[gi+1]*n], bn)
-					gw[gi] = 1 / math.Max(wsum, 1e-3)
 				}
 			})
 			for r := c0; r < c1; r++ {
@@ -208,25 +232,9 @@ func (s *collabScratch) block(m, i int) []float64 {
 
 // parallel runs fn over [0, m) in blocks of bs, one scratch per worker.
 func parallel(m, bs, workers int, fn func(i0, i1 int, s *collabScratch)) {
-	nb := (m + bs - 1) / bs
-	workers = max(1, min(workers, nb))
-	var next int64 = -1
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			s := &collabScratch{}
-			for {
-				b := int(atomic.AddInt64(&next, 1))
-				if b >= nb {
-					return
-				}
-				fn(b*bs, min((b+1)*bs, m), s)
-			}
-		}()
-	}
-	wg.Wait()
+	learn.Blocks((m+bs-1)/bs, workers, func() *collabScratch { return &collabScratch{} }, func(b int, s *collabScratch) {
+		fn(b*bs, min((b+1)*bs, m), s)
+	})
 }
 
 // spectra computes the 2-D DCTs of all the patches of a stripe of rows

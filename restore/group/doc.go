@@ -40,6 +40,13 @@
 //     restoration"; the σ₂ rule is common practice in that family); and a
 //     collaborative Wiener step on the supports found on the first
 //     estimate with the learned atoms as the patch transform.
+//   - Fill, for noise-free images with missing pixels: iterated hard
+//     thresholding in that 3-D transform with back-projection of the known
+//     pixels and a falling threshold (Egiazarian, Foi & Katkovnik 2007,
+//     "Compressed sensing image reconstruction via recursive spatially
+//     adaptive filtering"; Guleryuz 2006's iterated denoising with a
+//     non-local transform), from restore's DCT fill and grouping again on
+//     the estimate every few iterations (FillParams).
 //
 // Settings that restore.Options has no field for are in Params; the
 // package benchmark (BenchmarkGroupKodak) measures them against the
