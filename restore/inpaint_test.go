@@ -1,14 +1,12 @@
 package restore
 
 import (
-	"encoding/json"
 	"math"
-	"os"
 	"testing"
 
 	"tessera/learn"
 	"tessera/patches"
-	"tessera/restore/quality"
+	"tessera/restore/internal/testkit"
 )
 
 // harmonicFill solves Laplace's equation on the missing pixels with the
@@ -148,32 +146,8 @@ func TestInpaintKodakRandomLoss(t *testing.T) {
 // kodim13 and kodim21). The goal of 1 dB more at 50% loss is not reached on
 // these two textured crops: the shortfall is printed, not hidden.
 func TestInpaintBeatsBiharmonicReference(t *testing.T) {
-	b, err := os.ReadFile(sharedPath(t, "reference", "reference.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var ref struct {
-		Inpaint struct {
-			Cases []struct {
-				Clean, Mask string
-				Missing     float64 `json:"missing_fraction"`
-				PSNR        float64 `json:"biharmonic_psnr_db"`
-			}
-		} `json:"inpaint_biharmonic"`
-	}
-	if err := json.Unmarshal(b, &ref); err != nil {
-		t.Fatal(err)
-	}
-	for _, c := range ref.Inpaint.Cases {
-		clean := loadPNG(t, sharedPath(t, "reference", "inpaint", c.Clean))
-		if clean.C == 3 {
-			clean = quality.Luma(clean, true)
-		}
-		mimg := loadPNG(t, sharedPath(t, "reference", "inpaint", c.Mask))
-		miss := make([]bool, mimg.W*mimg.H)
-		for i := range miss {
-			miss[i] = mimg.Pix[i] > 127
-		}
+	for _, c := range testkit.FillCases(t) {
+		clean, miss := c.Img, c.Miss
 		out, res, err := Inpaint(clean, miss, 0, inpaintOpts())
 		if err != nil {
 			t.Fatal(err)

@@ -1,7 +1,6 @@
 package group
 
 import (
-	"encoding/json"
 	"fmt"
 	"math"
 	"os"
@@ -13,7 +12,6 @@ import (
 	"tessera/patches"
 	"tessera/restore"
 	"tessera/restore/internal/testkit"
-	"tessera/restore/quality"
 )
 
 // fillParams are DefaultFillParams with TESSERA_FILL_PARAMS
@@ -54,38 +52,14 @@ func checkKnown(t testing.TB, img, out *patches.Image, miss []bool) {
 //
 //	go test ./restore/group -run FillReference -v
 func TestFillReference(t *testing.T) {
-	b, err := os.ReadFile(sharedPath(t, "reference", "reference.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var ref struct {
-		Inpaint struct {
-			Cases []struct {
-				Clean, Mask string
-				Missing     float64 `json:"missing_fraction"`
-				PSNR        float64 `json:"biharmonic_psnr_db"`
-			}
-		} `json:"inpaint_biharmonic"`
-	}
-	if err := json.Unmarshal(b, &ref); err != nil {
-		t.Fatal(err)
-	}
 	fp := fillParams(t)
 	t.Logf("%-22s %-18s %7s %7s %7s %7s %6s %6s", "clean", "mask", "fill", "dct", "biharm", "gain", "s", "dct s")
 	var gain50 []float64
-	for _, c := range ref.Inpaint.Cases {
+	for _, c := range testkit.FillCases(t) {
 		if sel := os.Getenv("TESSERA_FILL_CASES"); sel != "" && !strings.Contains(c.Mask, sel) {
 			continue
 		}
-		clean := loadPNG(t, sharedPath(t, "reference", "inpaint", c.Clean))
-		if clean.C == 3 {
-			clean = quality.Luma(clean, true)
-		}
-		mimg := loadPNG(t, sharedPath(t, "reference", "inpaint", c.Mask))
-		miss := make([]bool, mimg.W*mimg.H)
-		for i := range miss {
-			miss[i] = mimg.Pix[i] > 127
-		}
+		clean, miss := c.Img, c.Miss
 		t0 := time.Now()
 		out, _, err := FillWith(clean, miss, restore.InpaintDefaults(0), fp)
 		if err != nil {

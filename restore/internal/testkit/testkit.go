@@ -5,6 +5,7 @@
 package testkit
 
 import (
+	"encoding/json"
 	"fmt"
 	"os"
 	"strconv"
@@ -105,4 +106,50 @@ func BenchKodak(b testing.TB) (names []string, imgs []*patches.Image) {
 		names, imgs = append(names, name), append(imgs, img)
 	}
 	return names, imgs
+}
+
+// FillCase is one case of reference.json's inpaint_biharmonic: a gray
+// Kodak crop, its mask, and the PSNR of scikit-image 0.19.3's
+// inpaint_biharmonic on it.
+type FillCase struct {
+	Clean, Mask string // file names under reference/inpaint
+	Missing     float64
+	PSNR        float64
+	Img         *patches.Image
+	Miss        []bool
+}
+
+// FillCases loads the inpaint_biharmonic cases of ../shared/reference.
+func FillCases(t testing.TB) []FillCase {
+	t.Helper()
+	b, err := os.ReadFile(SharedPath(t, "reference", "reference.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var ref struct {
+		Inpaint struct {
+			Cases []struct {
+				Clean, Mask string
+				Missing     float64 `json:"missing_fraction"`
+				PSNR        float64 `json:"biharmonic_psnr_db"`
+			}
+		} `json:"inpaint_biharmonic"`
+	}
+	if err := json.Unmarshal(b, &ref); err != nil {
+		t.Fatal(err)
+	}
+	var out []FillCase
+	for _, c := range ref.Inpaint.Cases {
+		clean := LoadPNG(t, SharedPath(t, "reference", "inpaint", c.Clean))
+		if clean.C == 3 {
+			clean = quality.Luma(clean, true)
+		}
+		mimg := LoadPNG(t, SharedPath(t, "reference", "inpaint", c.Mask))
+		miss := make([]bool, mimg.W*mimg.H)
+		for i := range miss {
+			miss[i] = mimg.Pix[i] > 127
+		}
+		out = append(out, FillCase{Clean: c.Clean, Mask: c.Mask, Missing: c.Missing, PSNR: c.PSNR, Img: clean, Miss: miss})
+	}
+	return out
 }
