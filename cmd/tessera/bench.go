@@ -69,8 +69,8 @@ pixel lost with probability N/100; text: lines of overlaid capitals and
 digits, strokes 2 pixels wide, about a tenth of the pixels), and filled
 by the harmonic fill (Laplace's equation on the holes: the baseline every
 row is measured against) and by the fill methods of tessera inpaint: dct
-(the default; --method ksvd instead) and, with --compare ksvd, the
-dictionary fill too. The known pixels are noise-free; PSNR and SSIM are
+(the default; --method group or ksvd instead), and those of --compare
+(--compare group,ksvd runs all three). The known pixels are noise-free; PSNR and SSIM are
 taken over the whole image. The options default to those of tessera
 inpaint; there is no report page.
 
@@ -120,7 +120,7 @@ func benchCommand(e *env) *cli.Command {
 			&cli.StringFlag{Name: "images", Usage: "use the images at positions `LIST` only, e.g. 1,5,23 (1 is the first)"},
 			&cli.StringFlag{Name: "task", Value: taskDenoise, Usage: "protocol `denoise|inpaint`: add noise and denoise, or cut holes (--holes) and fill them"},
 			&cli.StringFlag{Name: "holes", Value: "50%,80%,text", Usage: "with --task inpaint, the holes `LIST`: N% (random loss of N percent of the pixels) or text (lines of overlaid text)"},
-			&cli.StringFlag{Name: "method", Value: methodLearned, Usage: "measure method `ksvd|group` (see tessera denoise --method)"},
+			&cli.StringFlag{Name: "method", Value: methodLearned, Usage: "measure method `ksvd|group` (see tessera denoise --method); with --task inpaint dct|group|ksvd (tessera inpaint --method), default dct"},
 			&cli.StringFlag{Name: "compare", Usage: "also run the methods in `LIST`, comma-separated: dct (the ksvd coding with the fixed overcomplete DCT, untrained), group, ksvd"},
 		}, codingFlags(helpDefaults, "", "", "the noise and the training choices"), []cli.Flag{
 			&cli.StringFlag{Name: "json", Usage: "also write the figures as JSON to `FILE`"},

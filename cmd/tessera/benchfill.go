@@ -21,6 +21,7 @@ import (
 	"tessera/learn"
 	"tessera/patches"
 	"tessera/restore"
+	"tessera/restore/group"
 	"tessera/restore/quality"
 )
 
@@ -153,20 +154,18 @@ func (c *benchConfig) parseTask(cc *cli.Context) error {
 }
 
 // parseFillMethods reads --method and --compare of the inpainting
-// protocol: dct (the default of tessera inpaint) and ksvd.
+// protocol: dct (the default of tessera inpaint), group and ksvd.
 func parseFillMethods(cc *cli.Context) ([]string, error) {
 	var out []string
 	add := func(flag, m string) error {
 		switch m = strings.ToLower(strings.TrimSpace(m)); m {
-		case methodDCT, methodLearned:
+		case methodDCT, methodGroup, methodLearned:
 			if !hasMethod(out, m) {
 				out = append(out, m)
 			}
 			return nil
-		case methodGroup:
-			return usagef("--%s group: the group method denoises only; the inpainting protocol measures dct and ksvd (the methods of tessera inpaint)", flag)
 		}
-		return usagef("--%s %q: unknown fill method; choose dct or ksvd", flag, m)
+		return usagef("--%s %q: unknown fill method; choose dct, group or ksvd", flag, m)
 	}
 	first := methodDCT
 	if cc.IsSet("method") {
@@ -319,6 +318,8 @@ func fillCase(clean, holed *patches.Image, miss []bool, method string, opt resto
 	case methodDCT:
 		opt.Fill = restore.FillTransform
 		out, _, err = restore.Inpaint(holed, miss, 0, opt)
+	case methodGroup:
+		out, _, err = group.Fill(holed, miss, opt)
 	default:
 		opt.Fill = restore.FillDictionary
 		out, _, err = restore.Inpaint(holed, miss, 0, opt)

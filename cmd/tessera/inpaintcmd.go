@@ -15,6 +15,7 @@ import (
 	"tessera/learn"
 	"tessera/patches"
 	"tessera/restore"
+	"tessera/restore/group"
 )
 
 // inpaintHelpDefaults are the numerics' inpainting settings shown in --help.
@@ -22,7 +23,7 @@ var inpaintHelpDefaults = restore.InpaintDefaults(0)
 
 const inpaintDescription = `Fills the missing pixels of each image (dust, scratches, dead or saturated
 pixels) from what the rest of the image shows. The holes start from a
-smooth (harmonic) guess, which --passes passes then refine, by one of two
+smooth (harmonic) guess, which --passes passes then refine, by one of three
 methods:
 
   --method dct   (the default without --sigma) iterated thresholding: every
@@ -32,14 +33,23 @@ methods:
                  (Guleryuz 2006); 3 iterations per pass. Known pixels must
                  be noise-free; --atoms, --rounds, --train and --bound do
                  not apply.
+  --method group from the dct fill, 8 more iterations that group similar
+                 8×8 patches (16 within a 19×19 window, found again every
+                 4 iterations) and hard-threshold each group in a 3-D
+                 transform (2-D DCT of each patch, Walsh–Hadamard across
+                 the group; after Egiazarian, Foi & Katkovnik 2007).
+                 Better by about 0.4 dB at 80% loss on the Kodak set, in
+                 about twice the time of dct; noise-free known pixels
+                 only, and --passes sets its dct start.
   --method ksvd  (the default with --sigma) learns a dictionary
                  of patches on the known pixels only (masked K-SVD) and
                  codes every patch that touches a hole with weighted
                  orthogonal matching pursuit (Mairal, Elad & Sapiro 2008);
                  it can denoise the known pixels too.
 
-On the project's Kodak tests dct was the better of the two on 9 of 12
-crops and about ten times faster (README).
+On the project's Kodak tests dct was better than ksvd on 9 of 12 crops
+and about ten times faster, and group better than dct on every reference
+crop (README).
 
 Where the missing pixels are, exactly one of:
   --mask FILE          one mask for every input
@@ -95,7 +105,7 @@ func inpaintCommand(e *env) *cli.Command {
 			&cli.StringFlag{Name: "mask-suffix", Usage: "the missing pixels: each input's mask lies beside it, named with `SUFFIX` added (frame.png → frame_mask.png for _mask)"},
 			&cli.StringFlag{Name: "missing-value", Usage: "the missing pixels: those equal to `V` in every channel (0..65535, in the image's own units)"},
 			&cli.StringFlag{Name: "sigma", Usage: "noise standard deviation `N` in the image's own units, or auto to estimate it per image; denoises the known pixels too (without it they are kept exactly)"},
-			&cli.StringFlag{Name: "method", DefaultText: "dct, or ksvd with --sigma", Usage: "fill method `dct|ksvd`: iterated DCT thresholding, or a dictionary learned on the known pixels"},
+			&cli.StringFlag{Name: "method", DefaultText: "dct, or ksvd with --sigma", Usage: "fill method `dct|group|ksvd`: iterated DCT thresholding, then non-local thresholding of groups of similar patches (group), or a dictionary learned on the known pixels"},
 			&cli.IntFlag{Name: "passes", Value: 5, Usage: "`N` passes over the holes, 1..1000"},
 		}, codingFlags(inpaintHelpDefaults, " on the known pixels", " (σ at least 1.5 on the 8-bit scale)", pathSeed), batchFlags("images and masks")),
 		Action: func(cc *cli.Context) error {
@@ -161,10 +171,15 @@ func parseInpaint(cc *cli.Context, e *env) (*config, error) {
 				return nil, usagef("--method dct keeps the known pixels as they are and takes no --sigma; use --method ksvd to denoise them too")
 			}
 			c.fill = restore.FillTransform
+		case methodGroup:
+			if in.sigma > 0 || in.auto {
+				return nil, usagef("--method group keeps the known pixels as they are and takes no --sigma; use --method ksvd to denoise them too")
+			}
+			c.fill, c.method = restore.FillTransform, methodGroup
 		case methodLearned:
 			c.fill = restore.FillDictionary
 		default:
-			return nil, usagef("--method %q: unknown fill method; choose dct (the default) or ksvd", cc.String("method"))
+			return nil, usagef("--method %q: unknown fill method; choose dct (the default), group or ksvd", cc.String("method"))
 		}
 	}
 	if c.fill == restore.FillTransform || (c.fill == restore.FillAuto && in.sigma == 0 && !in.auto) {
@@ -489,15 +504,22 @@ func (in *inpainter) step(b *batch, j *job, f *imgfile.File, slot int, rec *reco
 		}
 	}
 	rec.Method = methodDCT
-	if opt.Fill == restore.FillDictionary {
+	fill := restore.Inpaint
+	switch {
+	case opt.Fill == restore.FillDictionary:
 		rec.Method = methodLearned
+	case b.cfg.method == methodGroup:
+		rec.Method = methodGroup
+		fill = func(img *patches.Image, miss []bool, _ float64, opt restore.Options) (*patches.Image, *restore.InpaintResult, error) {
+			return group.Fill(img, miss, opt)
+		}
 	}
 	if opt.Rounds > 0 && opt.Fill == restore.FillDictionary {
 		b.con.set(slot, stageText(restore.Stage{Name: "train", Rounds: opt.Rounds}))
 	} else {
 		b.con.set(slot, filling(1))
 	}
-	out, res, err := restore.Inpaint(img, miss, sigma, opt)
+	out, res, err := fill(img, miss, sigma, opt)
 	if err != nil {
 		return nil, restoreErr(j.name, err)
 	}

@@ -164,6 +164,17 @@ func TestInpaintMaskFile(t *testing.T) {
 	if rec := readReport(t, filepath.Join(dir, "k.jsonl"))[0]; rec["method"] != "ksvd" {
 		t.Fatalf("--method ksvd: report %v", rec)
 	}
+	// The non-local fill likewise, its passes those of its DCT start and
+	// its own 8 iterations.
+	inpaint(t, dir, "a.png", "--mask", "m.png", "--method", "group", "--passes", "3", "--out", "g.png", "--report", "g.jsonl").want(t, 0, "1 done")
+	g := decode(t, filepath.Join(dir, "g.png"))
+	sameKnown(t, "g.png", g.Img, in.Img, miss)
+	if after := holeMSE(g.Img, clean, miss); !(after < before/100) {
+		t.Fatalf("--method group: hole MSE %.1f after, %.1f before", after, before)
+	}
+	if rec := readReport(t, filepath.Join(dir, "g.jsonl"))[0]; rec["method"] != "group" || rec["passes"] != 11.0 {
+		t.Fatalf("--method group: report %v; want method group, 3 + 8 passes", rec)
+	}
 	// Without --out the output lands beside the input; a rerun skips it.
 	inpaint(t, dir, "a.png", "--mask", "m.png").want(t, 0, "1 done")
 	inpaint(t, dir, "a.png", "--mask", "m.png").want(t, 0, "0 done, 1 skipped")
@@ -369,7 +380,8 @@ func TestInpaintSigma(t *testing.T) {
 		}
 	}
 	inpaint(t, dir, "n.png", "--mask", "m.png", "--sigma", "10", "--method", "dct").want(t, 2, "--method dct keeps the known pixels as they are and takes no --sigma; use --method ksvd")
-	inpaint(t, dir, "n.png", "--mask", "m.png", "--method", "nl").want(t, 2, `--method "nl": unknown fill method; choose dct (the default) or ksvd`)
+	inpaint(t, dir, "n.png", "--mask", "m.png", "--sigma", "auto", "--method", "group").want(t, 2, "--method group keeps the known pixels as they are and takes no --sigma")
+	inpaint(t, dir, "n.png", "--mask", "m.png", "--method", "nl").want(t, 2, `--method "nl": unknown fill method; choose dct (the default), group or ksvd`)
 }
 
 // TestInpaintUsage: bad command lines exit 2 before any image is read.

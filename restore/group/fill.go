@@ -63,8 +63,13 @@ func DefaultFillParams() FillParams {
 // iterated denoising with a non-local transform). Known pixels come out
 // exactly as given; the result does not depend on opt.Workers. Colour
 // images are filled per opponent channel, grouped on the first.
+// opt.Passes, when set, is the DCT fill's passes (FillParams.StartPasses).
 func Fill(img *patches.Image, missing []bool, opt restore.Options) (*patches.Image, *restore.InpaintResult, error) {
-	return FillWith(img, missing, opt, DefaultFillParams())
+	fp := DefaultFillParams()
+	if opt.Passes > 0 {
+		fp.StartPasses = opt.Passes
+	}
+	return FillWith(img, missing, opt, fp)
 }
 
 // FillWith is Fill with explicit settings.
