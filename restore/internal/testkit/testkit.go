@@ -7,6 +7,7 @@ package testkit
 import (
 	"encoding/json"
 	"fmt"
+	"math"
 	"os"
 	"strconv"
 	"strings"
@@ -152,4 +153,31 @@ func FillCases(t testing.TB) []FillCase {
 		out = append(out, FillCase{Clean: c.Clean, Mask: c.Mask, Missing: c.Missing, PSNR: c.PSNR, Img: clean, Miss: miss})
 	}
 	return out
+}
+
+// SameAt16Bits denoises noisy at σ and the same images scaled to 16 bits
+// (×257) at 257σ, and fails unless both restore clean to within 0.05 dB
+// of each other: σ given in the image's own units means the same at
+// either depth.
+func SameAt16Bits(t testing.TB, clean, noisy *patches.Image, sigma float64, den func(*patches.Image, float64) (*patches.Image, error)) {
+	t.Helper()
+	out8, err := den(noisy, sigma)
+	if err != nil {
+		t.Fatal(err)
+	}
+	clean16, noisy16 := clean.Clone(), noisy.Clone()
+	clean16.Depth, noisy16.Depth = 16, 16
+	for i := range clean16.Pix {
+		clean16.Pix[i] *= 257
+		noisy16.Pix[i] *= 257
+	}
+	out16, err := den(noisy16, sigma*257)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p8, p16 := PSNR(t, clean, out8), PSNR(t, clean16, out16)
+	t.Logf("8-bit %.4f dB, 16-bit %.4f dB", p8, p16)
+	if math.Abs(p8-p16) > 0.05 {
+		t.Errorf("8-bit %.3f dB vs 16-bit %.3f dB", p8, p16)
+	}
 }
