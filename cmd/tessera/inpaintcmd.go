@@ -40,7 +40,7 @@ methods:
                  the group; after Egiazarian, Foi & Katkovnik 2007).
                  Better by about 0.4 dB at 80% loss on the Kodak set, in
                  about twice the time of dct; noise-free known pixels
-                 only, and --passes sets its dct start.
+                 only; --passes sets its dct start, --patch both stages.
   --method ksvd  (the default with --sigma) learns a dictionary
                  of patches on the known pixels only (masked K-SVD) and
                  codes every patch that touches a hole with weighted

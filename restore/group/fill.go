@@ -63,11 +63,15 @@ func DefaultFillParams() FillParams {
 // iterated denoising with a non-local transform). Known pixels come out
 // exactly as given; the result does not depend on opt.Workers. Colour
 // images are filled per opponent channel, grouped on the first.
-// opt.Passes, when set, is the DCT fill's passes (FillParams.StartPasses).
+// opt.Passes, when set, is the DCT fill's passes (FillParams.StartPasses),
+// and opt.Patch the patch side of both stages.
 func Fill(img *patches.Image, missing []bool, opt restore.Options) (*patches.Image, *restore.InpaintResult, error) {
 	fp := DefaultFillParams()
 	if opt.Passes > 0 {
 		fp.StartPasses = opt.Passes
+	}
+	if opt.Patch > 0 {
+		fp.Patch = opt.Patch
 	}
 	return FillWith(img, missing, opt, fp)
 }

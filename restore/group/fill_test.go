@@ -182,3 +182,24 @@ func BenchmarkFillKodak(b *testing.B) {
 		}
 	}
 }
+
+// opt.Patch sets the patch of both stages, so an image smaller than the
+// default 8×8 fills with smaller patches, as the DCT fill alone does.
+func TestFillSmallPatch(t *testing.T) {
+	img := patches.New(6, 6, 1, 8)
+	for i := range img.Pix {
+		img.Pix[i] = float32(100 + i)
+	}
+	miss := patches.RandomMask(6, 6, 0.3, 2)
+	opt := restore.InpaintDefaults(0)
+	opt.Patch = 4
+	out, _, err := Fill(img, miss, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	checkKnown(t, img, out, miss)
+	opt.Patch = 8
+	if _, _, err := Fill(img, miss, opt); err == nil {
+		t.Error("8×8 patches on a 6×6 image: want an error")
+	}
+}
