@@ -12,6 +12,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"runtime/debug"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -22,6 +23,7 @@ import (
 	"tessera/learn"
 	"tessera/patches"
 	"tessera/restore"
+	"tessera/restore/group"
 	"tessera/restore/quality"
 )
 
@@ -390,12 +392,15 @@ type benchOptions struct {
 	Color   bool      `json:"color"`
 	Methods []string  `json:"methods"`
 	Patch   int       `json:"patch"`
-	Atoms   int       `json:"atoms"`
-	Rounds  int       `json:"rounds"`
-	Bound   float64   `json:"bound"`
-	Train   int       `json:"train"`
-	Seed    uint64    `json:"seed"`
-	Workers int       `json:"workers"`
+	// GroupFirstPatch is the group method's first-stage patch side when
+	// it is not Patch (--patch not given).
+	GroupFirstPatch int     `json:"group_first_patch,omitempty"`
+	Atoms           int     `json:"atoms"`
+	Rounds          int     `json:"rounds"`
+	Bound           float64 `json:"bound"`
+	Train           int     `json:"train"`
+	Seed            uint64  `json:"seed"`
+	Workers         int     `json:"workers"`
 }
 
 // benchReport is the --json file.
@@ -456,6 +461,9 @@ func runBench(cfg *benchConfig, e *env) error {
 		},
 		Version: benchVersion(),
 		Started: start.UTC().Truncate(time.Second),
+	}
+	if slices.Contains(cfg.methods, methodGroup) && !cfg.den.setPatch {
+		rep.Options.GroupFirstPatch = group.DefaultParams(cfg.sigmas[0]).Patch
 	}
 	for _, en := range entries {
 		rep.Options.Images = append(rep.Options.Images, en.name)
@@ -665,8 +673,12 @@ func writeMarkdown(w io.Writer, rep *benchReport) error {
 	if rep.Options.Color {
 		mode = "RGB"
 	}
-	fmt.Fprintf(&b, "\nPSNR and its gain in dB; %s; patch %d, atoms %d, rounds %d, bound %g, train %d, seed %d; %s.\n",
-		mode, rep.Options.Patch, rep.Options.Atoms, rep.Options.Rounds, rep.Options.Bound, rep.Options.Train, rep.Options.Seed, rep.Version)
+	patch := strconv.Itoa(rep.Options.Patch)
+	if gp := rep.Options.GroupFirstPatch; gp > 0 && gp != rep.Options.Patch {
+		patch += fmt.Sprintf(" (group's first stage %d)", gp)
+	}
+	fmt.Fprintf(&b, "\nPSNR and its gain in dB; %s; patch %s, atoms %d, rounds %d, bound %g, train %d, seed %d; %s.\n",
+		mode, patch, rep.Options.Atoms, rep.Options.Rounds, rep.Options.Bound, rep.Options.Train, rep.Options.Seed, rep.Version)
 	_, err := w.Write(b.Bytes())
 	return err
 }

@@ -80,10 +80,19 @@ func TestBenchMethods(t *testing.T) {
 	r := tessera(t, dir, nil, nil, append([]string{"bench", "--set", "set", "--sigma", "25", "--method", "group", "--compare", "ksvd,group,dct", "--json", "b.json"}, quick...)...)
 	r.want(t, 0)
 	var rep struct {
-		Runs []struct{ Method string } `json:"runs"`
+		Runs    []struct{ Method string } `json:"runs"`
+		Options struct {
+			Patch           int `json:"patch"`
+			GroupFirstPatch int `json:"group_first_patch"`
+		} `json:"options"`
 	}
 	if err := json.Unmarshal(mustRead(t, filepath.Join(dir, "b.json")), &rep); err != nil {
 		t.Fatal(err)
+	}
+	// Without --patch the group method's first stage is 9×9: the footer
+	// and the JSON say so beside the patch of the others.
+	if rep.Options.Patch != 8 || rep.Options.GroupFirstPatch != 9 || !strings.Contains(r.stdout, "; patch 8 (group's first stage 9), ") {
+		t.Errorf("patch %d, group first patch %d; footer:\n%s", rep.Options.Patch, rep.Options.GroupFirstPatch, r.stdout)
 	}
 	var got []string
 	for _, run := range rep.Runs {
