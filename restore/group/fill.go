@@ -112,7 +112,11 @@ func FillWith(img *patches.Image, missing []bool, opt restore.Options, fp FillPa
 	}
 	for k := 0; k < fp.Iters; k++ {
 		if k%fp.Regroup == 0 {
-			g = holeGroups(match(chans[0], mp, opt.Workers), hole)
+			on := chans[0]
+			if groupOn != nil {
+				on = groupOn
+			}
+			g = holeGroups(match(on, mp, opt.Workers), hole)
 		}
 		T := fp.THi
 		if fp.Iters > 1 {
@@ -153,6 +157,11 @@ func FillWith(img *patches.Image, missing []bool, opt restore.Options, fp FillPa
 	res.Passes += fp.Iters
 	return out, res, nil
 }
+
+// groupOn, set by BenchmarkFillKodak only, is a gray image (0–255) that
+// the thresholding iterations group on instead of the estimate: the clean
+// image, to measure what better groups would be worth.
+var groupOn *patches.Image
 
 func report(opt restore.Options, done, total int) {
 	if opt.Progress != nil {
