@@ -170,10 +170,10 @@ func BenchmarkFillKodak(b *testing.B) {
 				var n int
 				fmt.Sscanf(name, "kodim%02d.png", &n)
 				miss := patches.RandomMask(clean.W, clean.H, loss, uint64(n))
-				t0, c0 := time.Now(), cpuSeconds()
 				if groupOnClean {
 					groupOn = clean.Scaled(255 / clean.Peak())
 				}
+				t0, c0 := time.Now(), cpuSeconds()
 				out, _, err := FillWith(clean, miss, restore.InpaintDefaults(0), fp)
 				if err != nil {
 					b.Fatal(err)
